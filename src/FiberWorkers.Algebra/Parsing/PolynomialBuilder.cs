@@ -1,0 +1,192 @@
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Algebra.Polynomials;
+
+namespace FiberWorkers.Algebra.Parsing;
+
+/// <summary>
+/// Expands a parsed equation into a polynomial over unknowns ++ parameters, substituting constants.
+/// Denominators may hold only numbers and constants. Problems are reported with the column they occur at.
+/// </summary>
+internal sealed class PolynomialBuilder
+{
+    private readonly IReadOnlyDictionary<string, int> _variableIndex;
+    private readonly IReadOnlyDictionary<string, double> _constants;
+    private readonly IReadOnlySet<string> _unknowns;
+    private readonly int _variableCount;
+    private readonly int _unknownCount;
+    private readonly FamilyLimits _limits;
+
+    public PolynomialBuilder(
+        IReadOnlyList<string> unknowns, IReadOnlyList<string> parameters, IReadOnlyDictionary<string, double> constants, FamilyLimits limits)
+    {
+        var index = new Dictionary<string, int>(StringComparer.Ordinal);
+        for (var i = 0; i < unknowns.Count; i++)
+        {
+            index.TryAdd(unknowns[i], i);
+        }
+
+        for (var k = 0; k < parameters.Count; k++)
+        {
+            index.TryAdd(parameters[k], unknowns.Count + k);
+        }
+
+        _variableIndex = index;
+        _constants = constants;
+        _unknowns = unknowns.ToHashSet(StringComparer.Ordinal);
+        _unknownCount = unknowns.Count;
+        _variableCount = unknowns.Count + parameters.Count;
+        _limits = limits;
+    }
+
+    /// <summary>All names an equation may use, for suggestions.</summary>
+    public IEnumerable<string> KnownNames => _variableIndex.Keys.Concat(_constants.Keys);
+
+    public Polynomial Build(ExpressionNode node)
+    {
+        switch (node)
+        {
+            case NumberNode number:
+                return Polynomial.Constant(_variableCount, number.Value);
+            case NameNode name:
+                if (_variableIndex.TryGetValue(name.Name, out var variable))
+                {
+                    return Polynomial.Variable(_variableCount, variable);
+                }
+
+                if (_constants.TryGetValue(name.Name, out var constant))
+                {
+                    return Polynomial.Constant(_variableCount, constant);
+                }
+
+                throw new ExpressionSyntaxException(
+                    name.Column, $"unknown name '{name.Name}'{NameSuggester.Hint(name.Name, KnownNames)}");
+            case NegateNode negate:
+                return Build(negate.Operand).Negate();
+            case PowerNode power:
+                return Checked(power.Column, () => Build(power.Base).Power(power.Exponent, _limits.MaxTerms));
+            case BinaryNode binary:
+                return BuildChain(binary);
+            default:
+                throw new InvalidOperationException($"unexpected node {node.GetType().Name}");
+        }
+    }
+
+    // A sum or product of k operands parses into a left-leaning chain k levels deep. Folding the chain in a
+    // loop keeps the stack depth bounded by the nesting limit instead of by the length of the equation:
+    // recursing once per term overflowed the stack (a process crash) at about 40,000 terms.
+    private Polynomial BuildChain(BinaryNode top)
+    {
+        var spine = new List<BinaryNode>();
+        ExpressionNode leftmost = top;
+        while (leftmost is BinaryNode binary)
+        {
+            spine.Add(binary);
+            leftmost = binary.Left;
+        }
+
+        var result = Build(leftmost);
+        for (var i = spine.Count - 1; i >= 0; i--)
+        {
+            result = Apply(spine[i], result);
+        }
+
+        return result;
+    }
+
+    private Polynomial Apply(BinaryNode binary, Polynomial left)
+    {
+        if (binary.Operator == BinaryOperator.Divide)
+        {
+            return left.Scale(1.0 / ConstantDenominator(binary));
+        }
+
+        var right = Build(binary.Right);
+        return binary.Operator switch
+        {
+            BinaryOperator.Add => left.Add(right),
+            BinaryOperator.Subtract => left.Subtract(right),
+            _ => Checked(binary.Column, () => left.Multiply(right, _limits.MaxTerms)),
+        };
+    }
+
+    private double ConstantDenominator(BinaryNode division)
+    {
+        if (FirstVariable(division.Right) is { } offending)
+        {
+            var kind = _unknowns.Contains(offending.Name) ? "unknown" : "parameter";
+            throw new ExpressionSyntaxException(
+                offending.Column,
+                $"the denominator contains the {kind} '{offending.Name}'; only numbers and constants may appear in a denominator");
+        }
+
+        var value = Build(division.Right).ConstantTerm;
+        if (value == 0)
+        {
+            throw new ExpressionSyntaxException(division.Column, "division by zero: the denominator evaluates to 0");
+        }
+
+        var reciprocal = 1.0 / value;
+        if (!double.IsFinite(reciprocal))
+        {
+            throw new ExpressionSyntaxException(division.Column, $"the denominator {value:R} is too small to divide by");
+        }
+
+        return value;
+    }
+
+    /// <summary>The leftmost unknown or parameter in a subtree; iterative for the reason given at <see cref="BuildChain"/>.</summary>
+    private NameNode? FirstVariable(ExpressionNode root)
+    {
+        var pending = new Stack<ExpressionNode>();
+        pending.Push(root);
+        while (pending.TryPop(out var node))
+        {
+            switch (node)
+            {
+                case NameNode name when _variableIndex.ContainsKey(name.Name):
+                    return name;
+                case NegateNode negate:
+                    pending.Push(negate.Operand);
+                    break;
+                case PowerNode power:
+                    pending.Push(power.Base);
+                    break;
+                case BinaryNode binary:
+                    pending.Push(binary.Right);
+                    pending.Push(binary.Left);
+                    break;
+            }
+        }
+
+        return null;
+    }
+
+    private Polynomial Checked(int column, Func<Polynomial> operation)
+    {
+        Polynomial result;
+        try
+        {
+            result = operation();
+        }
+        catch (PolynomialSizeException e)
+        {
+            throw new ExpressionSyntaxException(column, e.Message);
+        }
+
+        var unknownDegree = result.Degree(0, _unknownCount);
+        if (unknownDegree > _limits.MaxDegree)
+        {
+            throw new ExpressionSyntaxException(
+                column, $"the degree in the unknowns reaches {unknownDegree}, above the limit {_limits.MaxDegree}");
+        }
+
+        var parameterDegree = result.Degree(_unknownCount, _variableCount - _unknownCount);
+        if (parameterDegree > _limits.MaxDegree)
+        {
+            throw new ExpressionSyntaxException(
+                column, $"the degree in the parameters reaches {parameterDegree}, above the limit {_limits.MaxDegree}");
+        }
+
+        return result;
+    }
+}
