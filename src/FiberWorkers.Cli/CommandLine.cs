@@ -1,0 +1,75 @@
+using System.CommandLine;
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Cli.Commands;
+
+namespace FiberWorkers.Cli;
+
+/// <summary>
+/// Builds the <c>fiber</c> command tree and runs it with the project's exit codes:
+/// 0 success, 1 invalid input (the message names file and place), 2 bad command usage, 3 internal error.
+/// </summary>
+internal static class CommandLine
+{
+    public const int Success = 0;
+    public const int InvalidInput = 1;
+    public const int BadUsage = 2;
+    public const int InternalError = 3;
+
+    public static RootCommand Build(TextWriter output, TextWriter error)
+    {
+        var root = new RootCommand(
+            "fiber: how many real solutions a parameterized polynomial system has where, and what they are.");
+        root.Subcommands.Add(CheckCommand.Create(output));
+        root.Subcommands.Add(ExamplesCommand.Create(output));
+        return root;
+    }
+
+    public static async Task<int> RunAsync(string[] args, TextWriter output, TextWriter error)
+    {
+        var root = Build(output, error);
+        var parse = root.Parse(args);
+        if (parse.Errors.Count > 0)
+        {
+            foreach (var problem in parse.Errors)
+            {
+                await error.WriteLineAsync($"fiber: {problem.Message}");
+            }
+
+            await error.WriteLineAsync("Run 'fiber --help' for usage.");
+            return BadUsage;
+        }
+
+        try
+        {
+            return await parse.InvokeAsync(new InvocationConfiguration { EnableDefaultExceptionHandler = false, Output = output, Error = error });
+        }
+        catch (UsageException e)
+        {
+            await error.WriteLineAsync($"fiber: {e.Message}");
+            return BadUsage;
+        }
+        catch (InputException e)
+        {
+            await error.WriteLineAsync(e.Message);
+            return InvalidInput;
+        }
+        catch (OperationCanceledException)
+        {
+            await error.WriteLineAsync("fiber: cancelled");
+            return InvalidInput;
+        }
+        catch (Exception e)
+        {
+            await error.WriteLineAsync($"fiber: internal error: {e.Message}");
+            if (Environment.GetEnvironmentVariable("FIBER_DEBUG") == "1")
+            {
+                await error.WriteLineAsync(e.ToString());
+            }
+
+            return InternalError;
+        }
+    }
+}
+
+/// <summary>Bad command usage that the parser cannot see (conflicting or missing options); exit code 2.</summary>
+internal sealed class UsageException(string message) : Exception(message);

@@ -1,0 +1,3 @@
+using FiberWorkers.Cli;
+
+return await CommandLine.RunAsync(args, Console.Out, Console.Error);
