@@ -98,70 +98,11 @@ public static class TestFamilies
         int? rootCount = null) =>
         FamilyReader.Parse(Json(name, unknowns, equations, parameters, constants, rootCount), $"{name}.json");
 
-    /// <summary>
-    /// Katsura-n (Katsura 1990): unknowns u0..un, one linear equation and n quadratics; 2ⁿ solutions,
-    /// all finite and nonsingular, equal to the Bézout number.
-    /// </summary>
-    public static FamilyDefinition Katsura(int n)
-    {
-        ArgumentOutOfRangeException.ThrowIfLessThan(n, 1);
-        string U(int i) => $"u{Math.Abs(i)}";
-        var unknowns = Enumerable.Range(0, n + 1).Select(i => $"u{i}").ToArray();
-        var equations = new List<string>();
-        // Σ_{i=-n..n} u_i = 1 with u_{-i} = u_i.
-        equations.Add(string.Join(" + ", Enumerable.Range(0, n + 1).Select(i => i == 0 ? "u0" : $"2*u{i}")) + " - 1");
-        for (var m = 0; m < n; m++)
-        {
-            // Σ_{i=-n..n} u_i u_{m-i} = u_m, indices outside [-n, n] dropped.
-            var terms = new List<string>();
-            for (var i = -n; i <= n; i++)
-            {
-                var j = m - i;
-                if (Math.Abs(j) <= n)
-                {
-                    terms.Add($"{U(i)}*{U(j)}");
-                }
-            }
+    /// <summary>Katsura-n (Katsura 1990): 2ⁿ finite nonsingular solutions; see <see cref="BenchmarkFamilies.Katsura"/>.</summary>
+    public static FamilyDefinition Katsura(int n) => BenchmarkFamilies.Katsura(n);
 
-            equations.Add($"{string.Join(" + ", terms)} - {U(m)}");
-        }
-
-        return Build($"katsura-{n}", unknowns, equations);
-    }
-
-    /// <summary>
-    /// Cyclic-n roots (Björck &amp; Fröberg 1991): Σ_i Π_{k&lt;j} x_{i+k} = 0 for j = 1..n−1 and Π x_i = 1.
-    /// Optional parameters q1..qn are added to the constant terms (the generic perturbation monodromy uses).
-    /// </summary>
-    public static FamilyDefinition Cyclic(int n, bool withConstantParameters = false)
-    {
-        ArgumentOutOfRangeException.ThrowIfLessThan(n, 2);
-        var unknowns = Enumerable.Range(1, n).Select(i => $"z{i}").ToArray();
-        var equations = new List<string>();
-        for (var j = 1; j < n; j++)
-        {
-            var terms = new List<string>();
-            for (var i = 0; i < n; i++)
-            {
-                terms.Add(string.Join("*", Enumerable.Range(0, j).Select(k => unknowns[(i + k) % n])));
-            }
-
-            equations.Add(string.Join(" + ", terms));
-        }
-
-        equations.Add(string.Join("*", unknowns) + " - 1");
-        var parameters = new List<(string, double, double)>();
-        if (withConstantParameters)
-        {
-            for (var i = 0; i < n; i++)
-            {
-                equations[i] += $" + q{i + 1}";
-                parameters.Add(($"q{i + 1}", -1, 1));
-            }
-        }
-
-        return Build($"cyclic-{n}", unknowns, equations, parameters);
-    }
+    /// <summary>Cyclic-n roots (Björck &amp; Fröberg 1991); see <see cref="BenchmarkFamilies.Cyclic"/>.</summary>
+    public static FamilyDefinition Cyclic(int n, bool withConstantParameters = false) => BenchmarkFamilies.Cyclic(n, withConstantParameters);
 
     /// <summary>
     /// Lossless power flow on a complete network of <paramref name="buses"/> buses, unit voltage magnitudes,

@@ -1,11 +1,14 @@
 using System.Numerics;
+using System.Runtime.CompilerServices;
+using System.Runtime.InteropServices;
 
 namespace FiberWorkers.Algebra.LinearAlgebra;
 
 /// <summary>
 /// Dense complex LU factorization with partial pivoting on row-major n×n spans, for the small systems of a
 /// path tracker's step loop. Pivots are chosen by |re| + |im|, which avoids a square root per entry and picks
-/// the same pivot as the modulus up to a factor √2.
+/// the same pivot as the modulus up to a factor √2. The factors keep the reciprocals of U's diagonal on the
+/// diagonal, so solves multiply instead of dividing; use only this class's methods on them.
 /// </summary>
 public static class ComplexLu
 {
@@ -16,14 +19,15 @@ public static class ComplexLu
     public static bool Factor(Span<Complex> matrix, int n, Span<int> pivots)
     {
         CheckShape(matrix.Length, n, pivots.Length);
+        ref var a = ref MemoryMarshal.GetReference(matrix);
         var nonsingular = true;
         for (var k = 0; k < n; k++)
         {
             var pivotRow = k;
-            var pivotSize = Size(matrix[(k * n) + k]);
+            var pivotSize = Size(Unsafe.Add(ref a, (k * n) + k));
             for (var i = k + 1; i < n; i++)
             {
-                var size = Size(matrix[(i * n) + k]);
+                var size = Size(Unsafe.Add(ref a, (i * n) + k));
                 if (size > pivotSize)
                 {
                     pivotSize = size;
@@ -34,27 +38,29 @@ public static class ComplexLu
             pivots[k] = pivotRow;
             if (pivotRow != k)
             {
-                var rowK = matrix.Slice(k * n, n);
-                var rowP = matrix.Slice(pivotRow * n, n);
+                ref var rowK = ref Unsafe.Add(ref a, k * n);
+                ref var rowP = ref Unsafe.Add(ref a, pivotRow * n);
                 for (var j = 0; j < n; j++)
                 {
-                    (rowK[j], rowP[j]) = (rowP[j], rowK[j]);
+                    (Unsafe.Add(ref rowK, j), Unsafe.Add(ref rowP, j)) = (Unsafe.Add(ref rowP, j), Unsafe.Add(ref rowK, j));
                 }
             }
 
-            if (pivotSize == 0)
+            ref var pivotRowRef = ref Unsafe.Add(ref a, k * n);
+            if (pivotSize == 0 || !double.IsFinite(pivotSize))
             {
                 nonsingular = false;
+                Unsafe.Add(ref pivotRowRef, k) = Complex.Zero;
                 continue;
             }
 
-            var inversePivot = Complex.One / matrix[(k * n) + k];
-            var pivotRowSpan = matrix.Slice(k * n, n);
+            var inversePivot = Complex.One / Unsafe.Add(ref pivotRowRef, k);
+            Unsafe.Add(ref pivotRowRef, k) = inversePivot;
             for (var i = k + 1; i < n; i++)
             {
-                var row = matrix.Slice(i * n, n);
-                var factor = row[k] * inversePivot;
-                row[k] = factor;
+                ref var row = ref Unsafe.Add(ref a, i * n);
+                var factor = Unsafe.Add(ref row, k) * inversePivot;
+                Unsafe.Add(ref row, k) = factor;
                 if (factor == Complex.Zero)
                 {
                     continue;
@@ -62,7 +68,7 @@ public static class ComplexLu
 
                 for (var j = k + 1; j < n; j++)
                 {
-                    row[j] -= factor * pivotRowSpan[j];
+                    Unsafe.Add(ref row, j) -= factor * Unsafe.Add(ref pivotRowRef, j);
                 }
             }
         }
@@ -79,37 +85,40 @@ public static class ComplexLu
             throw new ArgumentException($"right-hand side has {rhs.Length} entries, expected {n}", nameof(rhs));
         }
 
+        ref var a = ref MemoryMarshal.GetReference(factors);
+        ref var b = ref MemoryMarshal.GetReference(rhs);
         for (var k = 0; k < n; k++)
         {
             var p = pivots[k];
             if (p != k)
             {
-                (rhs[k], rhs[p]) = (rhs[p], rhs[k]);
+                (Unsafe.Add(ref b, k), Unsafe.Add(ref b, p)) = (Unsafe.Add(ref b, p), Unsafe.Add(ref b, k));
             }
         }
 
         for (var i = 1; i < n; i++)
         {
-            var row = factors.Slice(i * n, i);
-            var sum = rhs[i];
+            ref var row = ref Unsafe.Add(ref a, i * n);
+            var sum = Unsafe.Add(ref b, i);
             for (var j = 0; j < i; j++)
             {
-                sum -= row[j] * rhs[j];
+                sum -= Unsafe.Add(ref row, j) * Unsafe.Add(ref b, j);
             }
 
-            rhs[i] = sum;
+            Unsafe.Add(ref b, i) = sum;
         }
 
         for (var i = n - 1; i >= 0; i--)
         {
-            var row = factors.Slice(i * n, n);
-            var sum = rhs[i];
+            ref var row = ref Unsafe.Add(ref a, i * n);
+            var sum = Unsafe.Add(ref b, i);
             for (var j = i + 1; j < n; j++)
             {
-                sum -= row[j] * rhs[j];
+                sum -= Unsafe.Add(ref row, j) * Unsafe.Add(ref b, j);
             }
 
-            rhs[i] = sum / row[i];
+            // The diagonal holds 1 / u_ii (see the class summary).
+            Unsafe.Add(ref b, i) = sum * Unsafe.Add(ref row, i);
         }
     }
 
@@ -126,7 +135,7 @@ public static class ComplexLu
                 sum -= Complex.Conjugate(factors[(j * n) + i]) * rhs[j];
             }
 
-            rhs[i] = sum / Complex.Conjugate(factors[(i * n) + i]);
+            rhs[i] = sum * Complex.Conjugate(factors[(i * n) + i]);
         }
 
         for (var i = n - 1; i >= 0; i--)
@@ -238,6 +247,7 @@ public static class ComplexLu
         return estimate;
     }
 
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
     private static double Size(Complex value) => Math.Abs(value.Real) + Math.Abs(value.Imaginary);
 
     private static void CheckShape(int matrixLength, int n, int pivotLength)

@@ -83,6 +83,42 @@ public sealed class PolynomialSystem
         return new PolynomialSystem([name, .. Unknowns], Parameters, equations);
     }
 
+    /// <summary>
+    /// The system F(x; p) + q: one new parameter per equation, added to its constant term (named by
+    /// <paramref name="prefix"/> and made unique). Its fiber over (p, q = −F(x₀; p)) contains any chosen x₀, which
+    /// is how monodromy gets its first solution; at q = 0 it is the original family.
+    /// </summary>
+    public PolynomialSystem WithConstantParameters(string prefix = "q")
+    {
+        var names = new List<string>(Parameters);
+        var added = new string[Equations.Count];
+        for (var i = 0; i < Equations.Count; i++)
+        {
+            var candidate = $"{prefix}{i + 1}";
+            for (var k = 1; Unknowns.Contains(candidate) || names.Contains(candidate); k++)
+            {
+                candidate = $"{prefix}{i + 1}_{k}";
+            }
+
+            added[i] = candidate;
+            names.Add(candidate);
+        }
+
+        var oldCount = UnknownCount + ParameterCount;
+        var newCount = oldCount + Equations.Count;
+        var map = Enumerable.Range(0, oldCount).ToArray();
+        var equations = new Polynomial[Equations.Count];
+        for (var i = 0; i < Equations.Count; i++)
+        {
+            equations[i] = Equations[i].Remap(newCount, map).Add(Polynomial.Variable(newCount, oldCount + i));
+        }
+
+        return new PolynomialSystem(Unknowns, names, equations);
+    }
+
+    /// <summary>Largest degree of any equation in the parameters.</summary>
+    public int ParameterDegree => Equations.Count == 0 ? 0 : Equations.Max(e => e.Degree(UnknownCount, ParameterCount));
+
     /// <summary>Compiles the system into an allocation-free evaluator of F, ∂F/∂x and ∂F/∂p.</summary>
     public CompiledSystem Compile() => SystemCompiler.Compile(this);
 
