@@ -1,0 +1,377 @@
+using System.Numerics;
+using FiberWorkers.Algebra.LinearAlgebra;
+using FiberWorkers.Solving.Homotopies;
+
+namespace FiberWorkers.Solving.Tracking;
+
+/// <summary>
+/// Predictor–corrector tracking of one solution of H(x, t) = 0 along a straight segment t(τ) = t_a + τ·(t_b − t_a),
+/// τ ∈ [0, 1], t complex. Predictor: classical fourth-order Runge–Kutta on dx/dτ = −H_x⁻¹·H_t·(t_b − t_a).
+/// Corrector: simplified Newton at the new t with the Jacobian factored for the last Runge–Kutta stage (which
+/// sits at the new t, within the predictor's error of the corrected point), so each iteration costs one value
+/// evaluation and one solve; its contraction rate must stay below a bound (against path jumping).
+/// The step size adapts to the predictor error, estimated by the first Newton correction (local error ∝ h⁵),
+/// and to the corrector's contraction. Reuses its buffers; one tracker per thread.
+/// </summary>
+internal sealed class PathTracker
+{
+    private readonly IHomotopy _homotopy;
+    private readonly int _n;
+    private readonly Complex[] _values;
+    private readonly Complex[] _jacobian;
+    private readonly Complex[] _timeDerivative;
+    private readonly Complex[] _k1;
+    private readonly Complex[] _k2;
+    private readonly Complex[] _k3;
+    private readonly Complex[] _k4;
+    private readonly Complex[] _stage;
+    private readonly Complex[] _predicted;
+    private readonly Complex[] _work;
+    private readonly Complex[] _unit;
+    private readonly int[] _pivots;
+    private double _moveNorm;
+
+    public PathTracker(IHomotopy homotopy)
+    {
+        ArgumentNullException.ThrowIfNull(homotopy);
+        _homotopy = homotopy;
+        _n = homotopy.Dimension;
+        _values = new Complex[_n];
+        _jacobian = new Complex[_n * _n];
+        _timeDerivative = new Complex[_n];
+        _k1 = new Complex[_n];
+        _k2 = new Complex[_n];
+        _k3 = new Complex[_n];
+        _k4 = new Complex[_n];
+        _stage = new Complex[_n];
+        _predicted = new Complex[_n];
+        _work = new Complex[2 * _n];
+        _unit = new Complex[_n];
+        _pivots = new int[_n];
+    }
+
+    public IHomotopy Homotopy => _homotopy;
+
+    public int Dimension => _n;
+
+    /// <summary>Tracks <paramref name="x"/> (a solution at t_a, updated in place) to t_b.</summary>
+    public TrackOutcome Track(Span<Complex> x, Complex tStart, Complex tEnd, TrackerOptions options, int? maxSteps = null)
+    {
+        var span = tEnd - tStart;
+        var budget = maxSteps ?? options.MaxSteps;
+        var tau = 0.0;
+        var stepSize = options.InitialStepSize;
+        var steps = 0;
+        var rejections = 0;
+        if (!Derivative(x, tStart, span, _k1))
+        {
+            return new TrackOutcome(TrackStatus.SingularJacobian, 0, 0, 0, stepSize);
+        }
+
+        while (tau < 1)
+        {
+            if (steps + rejections >= budget)
+            {
+                return new TrackOutcome(TrackStatus.TooManySteps, tau, steps, rejections, stepSize);
+            }
+
+            var step = Math.Min(stepSize, 1 - tau);
+            var last = step >= 1 - tau;
+            var newT = last ? tEnd : tStart + ((tau + step) * span);
+            var iterations = 0;
+            var firstCorrection = 0.0;
+            var contraction = 0.0;
+            var accepted = Predict(x, tStart, span, tau, step)
+                && Correct(newT, options, out iterations, out firstCorrection, out contraction);
+            if (!accepted)
+            {
+                rejections++;
+                stepSize = step * 0.5;
+                if (stepSize < options.MinStepSize)
+                {
+                    return new TrackOutcome(TrackStatus.StepSizeUnderflow, tau, steps, rejections, stepSize);
+                }
+
+                continue;
+            }
+
+            _predicted.AsSpan().CopyTo(x);
+            tau = last ? 1 : tau + step;
+            steps++;
+            if (!Derivative(x, newT, span, _k1))
+            {
+                return new TrackOutcome(TrackStatus.SingularJacobian, tau, steps, rejections, stepSize);
+            }
+
+            // Step growth from the predictor error e ≈ C·h⁵: aim for e at the tolerance, never more than ×2
+            // per step; a corrector that needed every iteration or contracted slowly holds the step.
+            var scale = 1 + MaxNorm(x);
+            var error = firstCorrection / scale;
+            var factor = error > 0 ? 0.9 * Math.Pow(options.PredictorTolerance / error, 0.2) : 2.0;
+            if (iterations >= options.MaxCorrectorIterations || contraction > 0.5 * options.MaxContraction)
+            {
+                factor = Math.Min(factor, 1.0);
+            }
+
+            factor = Math.Clamp(factor, 0.5, 2.0);
+            if (!last || factor < 1)
+            {
+                stepSize = Math.Clamp(step * factor, options.MinStepSize, options.MaxStepSize);
+            }
+        }
+
+        return new TrackOutcome(TrackStatus.Completed, 1, steps, rejections, stepSize);
+    }
+
+    /// <summary>
+    /// Newton's method on H(·, t) = 0 at fixed t; returns the last step norm (∞ on failure) and leaves the
+    /// refined point in <paramref name="x"/>.
+    /// </summary>
+    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance)
+    {
+        var last = double.PositiveInfinity;
+        for (var iteration = 0; iteration < maxIterations; iteration++)
+        {
+            _homotopy.Evaluate(x, t, _values, _jacobian);
+            if (!ComplexLu.Factor(_jacobian, _n, _pivots))
+            {
+                return double.PositiveInfinity;
+            }
+
+            ComplexLu.Solve(_jacobian, _n, _pivots, _values);
+            var norm = MaxNorm(_values);
+            if (!double.IsFinite(norm))
+            {
+                return double.PositiveInfinity;
+            }
+
+            for (var i = 0; i < _n; i++)
+            {
+                x[i] -= _values[i];
+            }
+
+            last = norm;
+            if (norm <= tolerance * (1 + MaxNorm(x)))
+            {
+                break;
+            }
+        }
+
+        return last;
+    }
+
+    /// <summary>‖H(x, t)‖∞.</summary>
+    public double Residual(ReadOnlySpan<Complex> x, Complex t)
+    {
+        _homotopy.Evaluate(x, t, _values, _jacobian);
+        return MaxNorm(_values);
+    }
+
+    /// <summary>Estimate of κ₁(∂H/∂x) at (x, t); ∞ when singular.</summary>
+    public double Condition(ReadOnlySpan<Complex> x, Complex t)
+    {
+        _homotopy.Evaluate(x, t, _values, _jacobian);
+        var norm = ComplexLu.OneNorm(_jacobian, _n);
+        if (!ComplexLu.Factor(_jacobian, _n, _pivots) || !double.IsFinite(norm))
+        {
+            return double.PositiveInfinity;
+        }
+
+        return norm * ComplexLu.EstimateInverseOneNorm(_jacobian, _n, _pivots, _work);
+    }
+
+    /// <summary>
+    /// Chart-independent estimate of κ₁ for a projective homotopy (the last row of ∂H/∂x is the chart c·X = 1):
+    /// the Jacobian of H(·, t) at the unit vector X̂ = X/‖X‖₂, with the chart row replaced by X̂*, the conjugate
+    /// of X̂ (the orthogonal chart through the point). The chart's own row is a poor yardstick: with |cᵢ| = 1 a
+    /// regular solution near the chart's hyperplane c·X = 0 has huge coordinates in the chart and a condition
+    /// number that grows with ‖X‖², which would misread it as singular. ∞ when singular.
+    /// </summary>
+    public double ProjectiveCondition(ReadOnlySpan<Complex> x, Complex t)
+    {
+        var norm = 0.0;
+        foreach (var z in x)
+        {
+            norm += (z.Real * z.Real) + (z.Imaginary * z.Imaginary);
+        }
+
+        norm = Math.Sqrt(norm);
+        if (!(norm > 0) || !double.IsFinite(norm))
+        {
+            return double.PositiveInfinity;
+        }
+
+        for (var i = 0; i < _n; i++)
+        {
+            _unit[i] = x[i] / norm;
+        }
+
+        // F^h is homogeneous, so ∂F^h/∂X at X̂ is the Jacobian at X with each row rescaled by a power of ‖X‖.
+        _homotopy.Evaluate(_unit, t, _values, _jacobian);
+        var chartRow = _jacobian.AsSpan((_n - 1) * _n, _n);
+        for (var j = 0; j < _n; j++)
+        {
+            chartRow[j] = Complex.Conjugate(_unit[j]);
+        }
+
+        var jacobianNorm = ComplexLu.OneNorm(_jacobian, _n);
+        if (!ComplexLu.Factor(_jacobian, _n, _pivots) || !double.IsFinite(jacobianNorm))
+        {
+            return double.PositiveInfinity;
+        }
+
+        return jacobianNorm * ComplexLu.EstimateInverseOneNorm(_jacobian, _n, _pivots, _work);
+    }
+
+    private bool Predict(ReadOnlySpan<Complex> x, Complex tStart, Complex span, double tau, double step)
+    {
+        var half = 0.5 * step;
+        var tHalf = tStart + ((tau + half) * span);
+        var tFull = tStart + ((tau + step) * span);
+        Axpy(x, half, _k1, _stage);
+        if (!Derivative(_stage, tHalf, span, _k2))
+        {
+            return false;
+        }
+
+        Axpy(x, half, _k2, _stage);
+        if (!Derivative(_stage, tHalf, span, _k3))
+        {
+            return false;
+        }
+
+        Axpy(x, step, _k3, _stage);
+        if (!Derivative(_stage, tFull, span, _k4))
+        {
+            return false;
+        }
+
+        var sixth = step / 6.0;
+        for (var i = 0; i < _n; i++)
+        {
+            _predicted[i] = x[i] + (sixth * (_k1[i] + (2 * (_k2[i] + _k3[i])) + _k4[i]));
+        }
+
+        // Remember the predicted move for the path-jumping guard in the corrector.
+        _moveNorm = 0;
+        for (var i = 0; i < _n; i++)
+        {
+            _moveNorm = Math.Max(_moveNorm, Complex.Abs(_predicted[i] - x[i]));
+        }
+
+        return true;
+    }
+
+    /// <summary>Newton on the predicted point at t; false when it does not contract fast enough or stalls.</summary>
+    private bool Correct(Complex t, TrackerOptions options, out int iterations, out double firstCorrection, out double contraction)
+    {
+        iterations = 0;
+        firstCorrection = 0;
+        contraction = 0;
+        var previous = 0.0;
+        var point = _predicted.AsSpan();
+        for (var k = 0; k < options.MaxCorrectorIterations; k++)
+        {
+            // _jacobian and _pivots still hold the factors from the fourth stage, evaluated at the new t.
+            _homotopy.Evaluate(point, t, _values);
+            ComplexLu.Solve(_jacobian, _n, _pivots, _values);
+            var norm = MaxNorm(_values);
+            if (!double.IsFinite(norm))
+            {
+                return false;
+            }
+
+            for (var i = 0; i < _n; i++)
+            {
+                point[i] -= _values[i];
+            }
+
+            iterations = k + 1;
+            var scale = 1 + MaxNorm(point);
+            if (k == 0)
+            {
+                firstCorrection = norm;
+                if (norm > (options.MaxCorrectionRatio * _moveNorm) + (options.CorrectorTolerance * scale))
+                {
+                    return false;
+                }
+            }
+            else
+            {
+                var rate = norm / previous;
+                contraction = Math.Max(contraction, rate);
+                if (rate > options.MaxContraction && norm > options.CorrectorTolerance * scale)
+                {
+                    return false;
+                }
+
+                // Linear convergence at rate θ leaves an error of about θ/(1 − θ)·‖Δ‖ after this update
+                // (Deuflhard's a-posteriori estimate), which is what the tolerance bounds.
+                if (rate < 1 && rate / (1 - rate) * norm <= options.CorrectorTolerance * scale)
+                {
+                    return true;
+                }
+            }
+
+            if (norm <= options.CorrectorTolerance * scale)
+            {
+                return true;
+            }
+
+            previous = norm;
+        }
+
+        return false;
+    }
+
+    /// <summary>k = dx/dτ = −H_x⁻¹ · H_t · span at (x, t); false when H_x is singular or values are not finite.</summary>
+    private bool Derivative(ReadOnlySpan<Complex> x, Complex t, Complex span, Span<Complex> k)
+    {
+        _homotopy.Evaluate(x, t, _values, _jacobian, _timeDerivative);
+        if (!ComplexLu.Factor(_jacobian, _n, _pivots))
+        {
+            return false;
+        }
+
+        for (var i = 0; i < _n; i++)
+        {
+            k[i] = -_timeDerivative[i] * span;
+        }
+
+        ComplexLu.Solve(_jacobian, _n, _pivots, k);
+        for (var i = 0; i < _n; i++)
+        {
+            if (!double.IsFinite(k[i].Real) || !double.IsFinite(k[i].Imaginary))
+            {
+                return false;
+            }
+        }
+
+        return true;
+    }
+
+    private void Axpy(ReadOnlySpan<Complex> x, double step, ReadOnlySpan<Complex> direction, Span<Complex> destination)
+    {
+        for (var i = 0; i < _n; i++)
+        {
+            destination[i] = x[i] + (step * direction[i]);
+        }
+    }
+
+    internal static double MaxNorm(ReadOnlySpan<Complex> v)
+    {
+        var norm = 0.0;
+        foreach (var z in v)
+        {
+            var modulus = Complex.Abs(z);
+            if (double.IsNaN(modulus))
+            {
+                return double.NaN;
+            }
+
+            norm = Math.Max(norm, modulus);
+        }
+
+        return norm;
+    }
+}

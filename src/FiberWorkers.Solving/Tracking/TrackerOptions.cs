@@ -1,0 +1,62 @@
+namespace FiberWorkers.Solving.Tracking;
+
+/// <summary>Settings of the predictor–corrector path tracker. Step sizes are fractions of one tracked segment.</summary>
+public sealed record TrackerOptions
+{
+    /// <summary>The defaults.</summary>
+    public static TrackerOptions Default { get; } = new();
+
+    /// <summary>
+    /// Tighter settings for re-tracking paths suspected of jumping: smaller steps, stricter contraction and
+    /// predictor tolerances.
+    /// </summary>
+    public static TrackerOptions Tight { get; } = new()
+    {
+        MaxStepSize = 0.02,
+        MaxContraction = 0.05,
+        PredictorTolerance = 1e-8,
+        CorrectorTolerance = 1e-10,
+        MaxCorrectorIterations = 8,
+        MaxSteps = 200_000,
+    };
+
+    /// <summary>First step, as a fraction of the segment. Default 0.1.</summary>
+    public double InitialStepSize { get; init; } = 0.1;
+
+    /// <summary>Largest step, as a fraction of the segment. Default 0.25.</summary>
+    public double MaxStepSize { get; init; } = 0.25;
+
+    /// <summary>Smallest step before the path fails with step-size underflow. Default 1e-13.</summary>
+    public double MinStepSize { get; init; } = 1e-13;
+
+    /// <summary>Most predictor–corrector steps (accepted plus rejected) on one segment. Default 50,000.</summary>
+    public int MaxSteps { get; init; } = 50_000;
+
+    /// <summary>Simplified-Newton iterations allowed per step. Default 5.</summary>
+    public int MaxCorrectorIterations { get; init; } = 5;
+
+    /// <summary>
+    /// Corrector stops when ‖Δx‖∞ ≤ this · (1 + ‖x‖∞). Default 1e-8 (relative): enough for the predictor's
+    /// derivatives; endpoints are refined to full precision separately.
+    /// </summary>
+    public double CorrectorTolerance { get; init; } = 1e-8;
+
+    /// <summary>
+    /// Largest Newton contraction ‖Δx_{k+1}‖ / ‖Δx_k‖ accepted in a step; a slower corrector means the
+    /// predicted point is not deep inside its path's basin, where path jumping starts. Default 0.25.
+    /// </summary>
+    public double MaxContraction { get; init; } = 0.25;
+
+    /// <summary>
+    /// Target size of the predictor error (the first Newton correction, relative to 1 + ‖x‖∞) that drives
+    /// step growth: the fourth-order predictor's error scales like h⁵. Default 1e-4, well inside the corrector's
+    /// quadratic basin; the contraction and correction-ratio bounds catch steps that leave it.
+    /// </summary>
+    public double PredictorTolerance { get; init; } = 1e-4;
+
+    /// <summary>
+    /// Largest first correction as a fraction of the predicted move; larger means the predictor left the
+    /// path. Default 0.25.
+    /// </summary>
+    public double MaxCorrectionRatio { get; init; } = 0.25;
+}
