@@ -1,0 +1,23 @@
+namespace FiberWorkers.Solving.Monodromy;
+
+/// <summary>Settings of a monodromy solve (Duff, Hill, Jensen, Lee, Leykin &amp; Sommars 2019).</summary>
+public sealed record MonodromyOptions
+{
+    /// <summary>The defaults.</summary>
+    public static MonodromyOptions Default { get; } = new();
+
+    /// <summary>Stop after this many loops in a row have found no new solution. Default 4.</summary>
+    public int StallLoops { get; init; } = 4;
+
+    /// <summary>Most loops in all. Default 200.</summary>
+    public int MaxLoops { get; init; } = 200;
+
+    /// <summary>Stop as soon as this many solutions are known (for example the family's rootCount). Default none.</summary>
+    public int? ExpectedRootCount { get; init; }
+
+    /// <summary>Run the trace test on the fiber found. Default true.</summary>
+    public bool TraceTest { get; init; } = true;
+
+    /// <summary>Relative tolerance of the trace test's linearity check. Default 1e-7.</summary>
+    public double TraceTolerance { get; init; } = 1e-7;
+}

@@ -1,0 +1,329 @@
+using System.Numerics;
+using FiberWorkers.Algebra.Evaluation;
+using FiberWorkers.Algebra.LinearAlgebra;
+using FiberWorkers.Algebra.Polynomials;
+using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.Homotopies;
+using FiberWorkers.Solving.Randomness;
+using FiberWorkers.Solving.StartFibers;
+using FiberWorkers.Solving.Tracking;
+
+namespace FiberWorkers.Solving.Monodromy;
+
+/// <summary>
+/// Finds the generic fiber of a family by monodromy (Duff, Hill, Jensen, Lee, Leykin &amp; Sommars 2019): start
+/// from one solution x₀ of a base system, track the known solutions around loops (triangles of straight segments
+/// through random complex parameter points) and keep every new endpoint, until the known set is closed under the
+/// loops and a number of further loops add nothing. A family that cannot place x₀ in a fiber by choosing its own
+/// parameters gets auxiliary parameters q on the constant terms, F(x; p) + q with q₀ = −F(x₀; p₀); the fiber at
+/// q = 0 is then reached by one parameter homotopy with endgame. Batches of loop tracks run in parallel; results
+/// are merged in a fixed order, so a seed gives the same fiber on any number of threads.
+/// </summary>
+internal sealed class MonodromySolver
+{
+    private readonly PolynomialSystem _system;
+    private readonly SolveOptions _solve;
+    private readonly MonodromyOptions _options;
+
+    public MonodromySolver(PolynomialSystem system, SolveOptions solve, MonodromyOptions options)
+    {
+        _system = system;
+        _solve = solve;
+        _options = options;
+    }
+
+    public (StartFiber Fiber, MonodromyReport Report) Solve(string familyHash, Complex[] basePoint)
+    {
+        var random = new SeededRandom(SeededRandom.Derive((ulong)_solve.Seed, "monodromy"));
+        var n = _system.UnknownCount;
+        var x0 = new Complex[n];
+        for (var i = 0; i < n; i++)
+        {
+            x0[i] = random.NextComplexGaussian();
+        }
+
+        // Place x₀ in a fiber: by the family's own parameters when it is linear in them with enough of them,
+        // otherwise with auxiliary constants q₀ = −F(x₀; p₀).
+        var parameters = (Complex[])basePoint.Clone();
+        var augmented = !TrySolveLinearParameters(x0, parameters);
+        var system = augmented ? _system.WithConstantParameters() : _system;
+        var basis = augmented ? Augment(x0, parameters) : parameters;
+
+        var projective = system.Homogenize().Compile();
+        var chart = ProjectiveChart.Random(n + 1, random);
+        var solutions = new List<Complex[]> { x0 };
+        var loops = new List<Complex[][]>();
+        var pending = new List<(int Solution, int Loop)>();
+        long tracks = 0;
+        long failedTracks = 0;
+        var stall = 0;
+        var expected = _options.ExpectedRootCount;
+        var solver = new FiberSolver(system, _solve);
+        var trace = (TraceTestResult?)null;
+        var skipped = (string?)null;
+        var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
+        // A failed trace test is the only warning that solutions may be missing, so it doubles the stall loops
+        // needed before the stopping rule may end the search.
+        while (loops.Count < _options.MaxLoops && !(solutions.Count >= expected)
+            && stall < (trace is { Passed: false } ? 2 * _options.StallLoops : _options.StallLoops))
+        {
+            loops.Add(NewLoop(basis, random));
+            var before = solutions.Count;
+            for (var s = 0; s < solutions.Count; s++)
+            {
+                pending.Add((s, loops.Count - 1));
+            }
+
+            while (pending.Count > 0 && !(solutions.Count >= expected))
+            {
+                var batch = pending.ToArray();
+                pending.Clear();
+                var ends = TrackBatch(batch, solutions, loops, projective, chart, basis);
+                tracks += batch.Length;
+                foreach (var end in ends)
+                {
+                    if (end is null)
+                    {
+                        failedTracks++;
+                        continue;
+                    }
+
+                    if (!solutions.Any(known => Close(known, end, MergeTolerance)))
+                    {
+                        solutions.Add(end);
+                        for (var l = 0; l < loops.Count; l++)
+                        {
+                            pending.Add((solutions.Count - 1, l));
+                        }
+                    }
+                }
+            }
+
+            stall = solutions.Count == before ? stall + 1 : 0;
+
+            // Once a loop adds nothing, the trace test on the base fiber (two tracks per solution, cheaper than a
+            // loop's three) can end the search. A failure means solutions are missing or that the test does not
+            // apply (points of the fiber at infinity on the moving slice); the stopping rule then decides.
+            if (stall > 0 && _options.TraceTest && !(solutions.Count >= expected))
+            {
+                (trace, skipped) = traceTest.Run(basis, solutions, random);
+                if (trace is { Passed: true })
+                {
+                    break;
+                }
+            }
+        }
+
+        // Bring the base fiber to the family itself at p₀ when it was augmented.
+        var (fiber, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, tracks);
+        var completeness = expected is { } count && fiber.Count >= count ? "expected-count"
+            : trace is { Passed: true } ? "trace-test"
+            : "stopping-rule";
+        var baseCount = solutions.Count;
+        var report = new MonodromyReport
+        {
+            Loops = loops.Count,
+            LoopsWithoutNew = stall,
+            LoopTracks = tracks,
+            FailedTracks = failedTracks,
+            Augmented = augmented,
+            BaseRootCount = baseCount,
+            FinalPaths = finalPaths,
+            Completeness = completeness,
+            TraceTest = trace,
+            TraceTestSkipped = skipped,
+        };
+        var note = $"monodromy: {loops.Count} loops, {tracks} loop tracks ({failedTracks} failed), {baseCount} solutions at the "
+            + (augmented ? $"augmented base point, {fiber.Count} after the homotopy to q = 0; " : $"base point; ")
+            + completeness switch
+            {
+                "expected-count" => $"reached the expected count {expected}",
+                "trace-test" => $"the trace test on equation {trace!.Equation + 1} passed (relative deviation {trace.RelativeDeviation:E1})",
+                _ => $"stopped after {stall} loops without a new solution"
+                    + (trace is not null
+                        ? $"; the trace test was inconclusive (relative deviation {trace.RelativeDeviation:E1}; it does not apply when the fiber "
+                            + "has solutions at infinity on the moving slice, and further loops found nothing new)"
+                        : skipped is not null ? $"; trace test not run: {skipped}" : string.Empty),
+            };
+        var provenance = new StartFiberProvenance("monodromy", (ulong)_solve.Seed, tracks * 3 + finalPaths, completeness, note);
+        return (new StartFiber(familyHash, _system.Unknowns, parameters, fiber, provenance), report);
+    }
+
+    /// <summary>Loop endpoints of the same solution agree to about the tracker's accuracy; merge within this.</summary>
+    private const double MergeTolerance = 1e-7;
+
+    private static (IReadOnlyList<Complex[]> Fiber, int FinalPaths) FiberAtBase(
+        FiberSolver solver,
+        PolynomialSystem system,
+        string familyHash,
+        bool augmented,
+        Complex[] basis,
+        Complex[] parameters,
+        List<Complex[]> solutions,
+        long tracks)
+    {
+        // A start fiber needs completeness more than certificates: every distinct regular solution is kept, also
+        // ill-conditioned ones that double precision cannot certify (dropping one would lose its paths forever).
+        if (!augmented)
+        {
+            return ([.. solutions], 0);
+        }
+
+        var start = new StartFiber(familyHash, system.Unknowns, basis, [.. solutions], new StartFiberProvenance("monodromy", 0, tracks, "stopping-rule", string.Empty));
+        var target = new Complex[basis.Length];
+        parameters.CopyTo(target, 0);
+        var atZero = solver.Solve(start, target);
+        return ([.. atZero.Solutions.Select(s => s.Values)], atZero.PathsTracked);
+    }
+
+    /// <summary>Loop endpoints for a batch, in batch order (null where a track failed).</summary>
+    private Complex[]?[] TrackBatch(
+        (int Solution, int Loop)[] batch,
+        List<Complex[]> solutions,
+        List<Complex[][]> loops,
+        CompiledSystem projective,
+        ProjectiveChart chart,
+        Complex[] basis)
+    {
+        var ends = new Complex[]?[batch.Length];
+        var threads = Math.Max(1, Math.Min(_solve.MaxDegreeOfParallelism, batch.Length));
+        Parallel.For(
+            0,
+            batch.Length,
+            new ParallelOptions { MaxDegreeOfParallelism = threads },
+            (k, _) =>
+            {
+                var (solution, loop) = batch[k];
+                ends[k] = AroundLoop(solutions[solution], loops[loop], projective, chart, basis);
+            });
+        return ends;
+    }
+
+    private Complex[]? AroundLoop(Complex[] start, Complex[][] loop, CompiledSystem projective, ProjectiveChart chart, Complex[] basis)
+    {
+        var x = new Complex[start.Length + 1];
+        chart.Lift(start, x);
+        var corners = new[] { basis, loop[0], loop[1], basis };
+        PathTracker? tracker = null;
+        for (var edge = 0; edge < 3; edge++)
+        {
+            var homotopy = new ParameterHomotopy(projective, chart, corners[edge], corners[edge + 1]);
+            tracker = new PathTracker(homotopy.CreateEvaluator());
+            if (!tracker.Track(x, 0, 1, _solve.Tracker).Completed)
+            {
+                return null;
+            }
+        }
+
+        // Refine in the chart, where solutions with large coordinates stay well scaled, and judge the point with
+        // the chart-independent condition number; only then leave the chart.
+        tracker!.Refine(x, 1, 4, 1e-15);
+        if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
+            || !(tracker.ProjectiveCondition(x, 1) <= _solve.Endgame.SingularConditionLimit))
+        {
+            return null;
+        }
+
+        var affinePoint = new Complex[start.Length];
+        for (var i = 0; i < affinePoint.Length; i++)
+        {
+            affinePoint[i] = x[i + 1] / x[0];
+        }
+
+        return affinePoint;
+    }
+
+    private static Complex[][] NewLoop(Complex[] basis, SeededRandom random)
+    {
+        var corners = new Complex[2][];
+        for (var c = 0; c < 2; c++)
+        {
+            corners[c] = new Complex[basis.Length];
+            for (var k = 0; k < basis.Length; k++)
+            {
+                corners[c][k] = basis[k] + ((1 + basis[k].Magnitude) * random.NextComplexGaussian());
+            }
+        }
+
+        return corners;
+    }
+
+    /// <summary>(p₀, q₀) with q₀ = −F(x₀; p₀).</summary>
+    private Complex[] Augment(Complex[] x0, Complex[] parameters)
+    {
+        var compiled = _system.Compile();
+        var values = new Complex[_system.Equations.Count];
+        compiled.Evaluate(x0, parameters, values, compiled.CreateWorkspace());
+        return [.. parameters, .. values.Select(v => -v)];
+    }
+
+    /// <summary>
+    /// When F is affine-linear in p with at least n parameters, chooses p so that F(x₀; p) = 0: the last m − n
+    /// parameters stay random and the first n solve the n×n linear system. False when that is impossible.
+    /// </summary>
+    private bool TrySolveLinearParameters(Complex[] x0, Complex[] parameters)
+    {
+        var n = _system.UnknownCount;
+        var m = _system.ParameterCount;
+        if (m < n || _system.ParameterDegree > 1)
+        {
+            return false;
+        }
+
+        var compiled = _system.Compile();
+        var workspace = compiled.CreateWorkspace();
+        var values = new Complex[n];
+        var jacobian = new Complex[n * n];
+        var parameterJacobian = new Complex[n * m];
+        var zero = new Complex[m];
+        for (var k = n; k < m; k++)
+        {
+            zero[k] = parameters[k];
+        }
+
+        // F(x₀; p) = F(x₀; p_fixed) + A·p_free where A is ∂F/∂p restricted to the first n parameters (exact: F is affine in p).
+        compiled.Evaluate(x0, zero, values, jacobian, parameterJacobian, workspace);
+        var matrix = new Complex[n * n];
+        for (var i = 0; i < n; i++)
+        {
+            for (var k = 0; k < n; k++)
+            {
+                matrix[(i * n) + k] = parameterJacobian[(i * m) + k];
+            }
+        }
+
+        var pivots = new int[n];
+        var norm = ComplexLu.OneNorm(matrix, n);
+        if (!ComplexLu.Factor(matrix, n, pivots)
+            || norm * ComplexLu.EstimateInverseOneNorm(matrix, n, pivots, new Complex[2 * n]) > 1e10)
+        {
+            return false;
+        }
+
+        for (var i = 0; i < n; i++)
+        {
+            values[i] = -values[i];
+        }
+
+        ComplexLu.Solve(matrix, n, pivots, values);
+        for (var k = 0; k < n; k++)
+        {
+            parameters[k] = values[k];
+        }
+
+        return true;
+    }
+
+    private static bool Close(ReadOnlySpan<Complex> a, ReadOnlySpan<Complex> b, double tolerance)
+    {
+        var scale = 1.0;
+        var distance = 0.0;
+        for (var i = 0; i < a.Length; i++)
+        {
+            distance = Math.Max(distance, Complex.Abs(a[i] - b[i]));
+            scale = Math.Max(scale, a[i].Magnitude);
+        }
+
+        return distance <= tolerance * scale;
+    }
+}
