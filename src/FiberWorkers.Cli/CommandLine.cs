@@ -21,6 +21,8 @@ internal static class CommandLine
             "fiber: how many real solutions a parameterized polynomial system has where, and what they are.");
         root.Subcommands.Add(CheckCommand.Create(output));
         root.Subcommands.Add(ExamplesCommand.Create(output));
+        root.Subcommands.Add(SolveCommand.Create(output, error));
+        root.Subcommands.Add(BenchCommand.Create(output));
         return root;
     }
 
