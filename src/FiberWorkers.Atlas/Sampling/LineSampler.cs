@@ -1,0 +1,149 @@
+using System.Globalization;
+using System.Numerics;
+using FiberWorkers.Atlas.Crossings;
+using FiberWorkers.Contracts.V1;
+using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.StartFibers;
+
+namespace FiberWorkers.Atlas.Sampling;
+
+/// <summary>
+/// Boundary-aware sampling on one line: the real count is constant between consecutive real crossings, so each
+/// interval's midpoint is solved in full and labels the points near its ends (crossing ± δ) and the line's
+/// uniform point; those get their real solutions by real-only tracking from the midpoint, which stays inside the
+/// interval. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
+/// them) but are not boundaries: the count must agree on both sides. Counts that change by an odd number across a
+/// fold, or at all across a passage, are flagged and kept.
+/// </summary>
+internal sealed class LineSampler
+{
+    private readonly FiberSolver _solver;
+    private readonly StartFiber _start;
+    private readonly int _unknowns;
+
+    public LineSampler(FiberSolver solver, StartFiber start)
+    {
+        _solver = solver;
+        _start = start;
+        _unknowns = solver.System.UnknownCount;
+    }
+
+    /// <summary>Samples of the line; adds flags for inconsistencies. <paramref name="delta"/> is in s units.</summary>
+    public List<Sample> Sample(
+        int lineIndex, double[] origin, double[] direction, double sMin, double sMax, IReadOnlyList<LineCrossing> crossings, double delta, List<string> flags)
+    {
+        var cuts = crossings.Select(c => c.S).ToList();
+        var bounds = new List<double> { sMin };
+        bounds.AddRange(cuts);
+        bounds.Add(sMax);
+        var intervals = bounds.Count - 1;
+        var midpoints = new (double S, FiberSolution Solution)[intervals];
+        var samples = new List<Sample>();
+        for (var k = 0; k < intervals; k++)
+        {
+            var s = 0.5 * (bounds[k] + bounds[k + 1]);
+            var solution = _solver.Solve(_start, Point(origin, direction, s));
+            midpoints[k] = (s, solution);
+            samples.Add(Make(origin, direction, s, lineIndex, SampleKind.Midpoint, solution.RealCount, solution.RealSolutions.Select(r => r.Values).ToList(), solution.RealCountCertified));
+        }
+
+        for (var c = 0; c < crossings.Count; c++)
+        {
+            var (left, right) = (midpoints[c].Solution.RealCount, midpoints[c + 1].Solution.RealCount);
+            var at = crossings[c].S.ToString("G6", CultureInfo.InvariantCulture);
+            if (crossings[c].IsBoundary && (left - right) % 2 != 0)
+            {
+                flags.Add($"line {lineIndex}: the real count changes by an odd number ({left} to {right}) across the fold at s = {at}");
+            }
+            else if (!crossings[c].IsBoundary && left != right)
+            {
+                flags.Add($"line {lineIndex}: the real count changes ({left} to {right}) across a passage through infinity at s = {at}");
+            }
+
+            if (!crossings[c].IsBoundary)
+            {
+                continue;
+            }
+
+            // Stay inside the neighbouring intervals: at most a quarter of each.
+            var below = Math.Min(delta, 0.25 * (bounds[c + 1] - bounds[c]));
+            var above = Math.Min(delta, 0.25 * (bounds[c + 2] - bounds[c + 1]));
+            samples.Add(Inherit(origin, direction, crossings[c].S - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
+            samples.Add(Inherit(origin, direction, crossings[c].S + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
+        }
+
+        // The uniform point that defined the line is s = 0; it lies in one interval.
+        var home = 0;
+        while (home < intervals - 1 && bounds[home + 1] < 0)
+        {
+            home++;
+        }
+
+        samples.Insert(0, Inherit(origin, direction, 0, lineIndex, SampleKind.Uniform, midpoints[home], flags));
+        return samples;
+    }
+
+    /// <summary>A sample labeled by its interval's midpoint, with real solutions tracked from there.</summary>
+    private Sample Inherit(double[] origin, double[] direction, double s, int line, SampleKind kind, (double S, FiberSolution Solution) midpoint, List<string> flags)
+    {
+        var label = midpoint.Solution.RealCount;
+        var real = midpoint.Solution.RealSolutions.Select(r => r.Values).ToList();
+        var target = Point(origin, direction, s);
+        if (real.Count == 0)
+        {
+            return Make(origin, direction, s, line, kind, 0, [], midpoint.Solution.RealCountCertified);
+        }
+
+        var tracked = _solver.TrackSegment(Point(origin, direction, midpoint.S), target, real);
+        if (tracked.AllRegular)
+        {
+            var points = tracked.Paths.Select(p => p.Endpoint!).ToList();
+            var certified = _solver.Certify(target, points.Select((x, i) => (i, x)).ToArray());
+            var allCertified = midpoint.Solution.RealCountCertified && certified.All(c => c.Certified && c.IsReal);
+            return Make(origin, direction, s, line, kind, label, points, allCertified);
+        }
+
+        // Real-only tracking failed inside an interval that should hold no crossing: solve in full, keep the
+        // inherited label, and say so if the two disagree.
+        var full = _solver.Solve(_start, target);
+        var sample = Make(origin, direction, s, line, kind, label, full.RealSolutions.Select(r => r.Values).ToList(), false);
+        var at = s.ToString("G6", CultureInfo.InvariantCulture);
+        if (full.RealCount != label)
+        {
+            sample.Flag = $"real-only tracking failed; a full solve finds {full.RealCount} real solutions, not {label}";
+            flags.Add($"line {line}: at s = {at} {sample.Flag}");
+        }
+
+        return sample;
+    }
+
+    private Sample Make(double[] origin, double[] direction, double s, int line, SampleKind kind, int label, IReadOnlyList<Complex[]> real, bool certified)
+    {
+        var sample = new Sample { Label = label, Kind = kind, Line = line, S = s, Certified = certified };
+        for (var k = 0; k < origin.Length; k++)
+        {
+            sample.Point.Add(origin[k] + (s * direction[k]));
+        }
+
+        foreach (var solution in real)
+        {
+            for (var i = 0; i < _unknowns; i++)
+            {
+                sample.Solutions.Add(solution[i].Real);
+            }
+        }
+
+        return sample;
+    }
+
+    private static Complex[] Point(double[] origin, double[] direction, double s)
+    {
+        var point = new Complex[origin.Length];
+        for (var k = 0; k < origin.Length; k++)
+        {
+            point[k] = origin[k] + (s * direction[k]);
+        }
+
+        return point;
+    }
+}

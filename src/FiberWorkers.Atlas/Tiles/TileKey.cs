@@ -1,0 +1,117 @@
+using System.Globalization;
+using FiberWorkers.Algebra.Families;
+
+namespace FiberWorkers.Atlas.Tiles;
+
+/// <summary>
+/// A tile of the parameter box: a refinement level and integer coordinates at that level. Level 0 is the sweep's
+/// grid (divisions per axis); each level halves every axis, so tile (l, i) has the children (l + 1, 2i + b) for
+/// b ∈ {0, 1}^m. Written as <c>L{level}:{i₁},{i₂},…</c>.
+/// </summary>
+public readonly record struct TileKey(int Level, int[] Coordinates) : IComparable<TileKey>
+{
+    /// <summary>Parses <c>L2:5,3</c>; throws <see cref="FormatException"/> on anything else.</summary>
+    public static TileKey Parse(string text)
+    {
+        ArgumentNullException.ThrowIfNull(text);
+        var colon = text.IndexOf(':', StringComparison.Ordinal);
+        if (text.Length < 4 || text[0] != 'L' || colon < 2
+            || !int.TryParse(text.AsSpan(1, colon - 1), NumberStyles.None, CultureInfo.InvariantCulture, out var level)
+            || level > 30)
+        {
+            throw new FormatException($"'{text}' is not a tile key (expected L<level>:<i>,<j>,...)");
+        }
+
+        var parts = text[(colon + 1)..].Split(',');
+        var coordinates = new int[parts.Length];
+        for (var k = 0; k < parts.Length; k++)
+        {
+            if (!int.TryParse(parts[k], NumberStyles.None, CultureInfo.InvariantCulture, out coordinates[k]))
+            {
+                throw new FormatException($"'{text}' is not a tile key (coordinate {k + 1} is not a non-negative integer)");
+            }
+        }
+
+        return new TileKey(level, coordinates);
+    }
+
+    /// <summary>The 2^m children one level down.</summary>
+    public IEnumerable<TileKey> Children()
+    {
+        var m = Coordinates.Length;
+        for (var mask = 0; mask < (1 << m); mask++)
+        {
+            var child = new int[m];
+            for (var k = 0; k < m; k++)
+            {
+                child[k] = (2 * Coordinates[k]) + ((mask >> k) & 1);
+            }
+
+            yield return new TileKey(Level + 1, child);
+        }
+    }
+
+    /// <summary>The tile's bounds in the box, given the level-0 divisions per axis.</summary>
+    public (double[] Low, double[] High) Bounds(IReadOnlyList<ParameterBox> box, IReadOnlyList<int> divisions)
+    {
+        var m = Coordinates.Length;
+        var low = new double[m];
+        var high = new double[m];
+        for (var k = 0; k < m; k++)
+        {
+            var cells = (double)divisions[k] * (1L << Level);
+            low[k] = box[k].Low + (box[k].Width * Coordinates[k] / cells);
+            high[k] = box[k].Low + (box[k].Width * (Coordinates[k] + 1) / cells);
+        }
+
+        return (low, high);
+    }
+
+    /// <summary>True when the coordinates fit the grid at this level.</summary>
+    public bool FitsIn(IReadOnlyList<int> divisions)
+    {
+        if (Coordinates.Length != divisions.Count)
+        {
+            return false;
+        }
+
+        for (var k = 0; k < Coordinates.Length; k++)
+        {
+            if (Coordinates[k] < 0 || Coordinates[k] >= (long)divisions[k] << Level)
+            {
+                return false;
+            }
+        }
+
+        return true;
+    }
+
+    /// <inheritdoc />
+    public override string ToString() =>
+        string.Create(CultureInfo.InvariantCulture, $"L{Level}:{string.Join(',', Coordinates)}");
+
+    /// <inheritdoc />
+    public bool Equals(TileKey other) => Level == other.Level && Coordinates.AsSpan().SequenceEqual(other.Coordinates);
+
+    /// <inheritdoc />
+    public override int GetHashCode() => ToString().GetHashCode(StringComparison.Ordinal);
+
+    /// <summary>Orders by level, then coordinates lexicographically: the order tiles are hashed and stored in.</summary>
+    public int CompareTo(TileKey other)
+    {
+        if (Level != other.Level)
+        {
+            return Level.CompareTo(other.Level);
+        }
+
+        for (var k = 0; k < Math.Min(Coordinates.Length, other.Coordinates.Length); k++)
+        {
+            if (Coordinates[k] != other.Coordinates[k])
+            {
+                return Coordinates[k].CompareTo(other.Coordinates[k]);
+            }
+        }
+
+        return Coordinates.Length.CompareTo(other.Coordinates.Length);
+    }
+}
