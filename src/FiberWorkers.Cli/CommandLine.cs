@@ -22,6 +22,7 @@ internal static class CommandLine
         root.Subcommands.Add(CheckCommand.Create(output));
         root.Subcommands.Add(ExamplesCommand.Create(output));
         root.Subcommands.Add(SolveCommand.Create(output, error));
+        root.Subcommands.Add(SweepCommand.Create(output, error));
         root.Subcommands.Add(BenchCommand.Create(output));
         return root;
     }

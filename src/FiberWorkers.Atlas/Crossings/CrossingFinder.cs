@@ -15,6 +15,9 @@ internal sealed class CrossingFinder
     /// <summary>An endpoint is real when its imaginary parts are at most this, relative to its size.</summary>
     private const double RealTolerance = 1e-7;
 
+    /// <summary>Crossings closer than this fraction of the segment are the same event.</summary>
+    internal const double CoincidenceTolerance = 1e-8;
+
     private readonly LineFamilies _families;
     private readonly FiberSolver _folds;
     private readonly FiberSolver _passages;
@@ -67,6 +70,11 @@ internal sealed class CrossingFinder
             }
         }
 
+        // Two solutions meeting at infinity also satisfy X₀ = 0: the passage family sees every fold at infinity too.
+        // A passage at the same s as a fold is that fold, not a separate event.
+        var tolerance = CoincidenceTolerance * (sMax - sMin);
+        crossings.RemoveAll(c => c.Kind == CrossingKind.Passage
+            && crossings.Any(f => f.IsBoundary && Math.Abs(f.S - c.S) <= tolerance));
         crossings.Sort((x, y) => x.S.CompareTo(y.S));
         return (crossings, paths);
     }
@@ -79,10 +87,15 @@ internal sealed class CrossingFinder
     {
         crossing = null!;
         s = point[sIndex].Real;
-        if (Math.Abs(point[sIndex].Imaginary) > RealTolerance * (1 + Math.Abs(s)) || s < sMin || s > sMax)
+
+        // A crossing on a tile edge belongs to both neighbours; rounding must not make both miss it.
+        var edge = CoincidenceTolerance * (sMax - sMin);
+        if (Math.Abs(point[sIndex].Imaginary) > RealTolerance * (1 + Math.Abs(s)) || s < sMin - edge || s > sMax + edge)
         {
             return false;
         }
+
+        s = Math.Clamp(s, sMin, sMax);
 
         // X is only defined up to the complex chart's scale: divide by its largest entry, then it must be real.
         var largest = 0;

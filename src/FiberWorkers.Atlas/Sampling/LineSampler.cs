@@ -32,9 +32,32 @@ internal sealed class LineSampler
     public List<Sample> Sample(
         int lineIndex, double[] origin, double[] direction, double sMin, double sMax, IReadOnlyList<LineCrossing> crossings, double delta, List<string> flags)
     {
-        var cuts = crossings.Select(c => c.S).ToList();
+        // Crossings at the same s (symmetric families fold in pairs) make one cut: a zero-length interval would put a
+        // midpoint on the discriminant itself.
+        var tolerance = CrossingFinder.CoincidenceTolerance * (sMax - sMin);
+        var groups = new List<List<LineCrossing>>();
+        var atEnds = new List<LineCrossing>();
+        foreach (var crossing in crossings)
+        {
+            // A crossing on the segment's end (a tile edge) bounds no interval here.
+            if (crossing.S - sMin <= tolerance || sMax - crossing.S <= tolerance)
+            {
+                atEnds.Add(crossing);
+                continue;
+            }
+
+            if (groups.Count > 0 && crossing.S - groups[^1][^1].S <= tolerance)
+            {
+                groups[^1].Add(crossing);
+            }
+            else
+            {
+                groups.Add([crossing]);
+            }
+        }
+
         var bounds = new List<double> { sMin };
-        bounds.AddRange(cuts);
+        bounds.AddRange(groups.Select(g => g[0].S));
         bounds.Add(sMax);
         var intervals = bounds.Count - 1;
         var midpoints = new (double S, FiberSolution Solution)[intervals];
@@ -47,29 +70,39 @@ internal sealed class LineSampler
             samples.Add(Make(origin, direction, s, lineIndex, SampleKind.Midpoint, solution.RealCount, solution.RealSolutions.Select(r => r.Values).ToList(), solution.RealCountCertified));
         }
 
-        for (var c = 0; c < crossings.Count; c++)
+        for (var c = 0; c < groups.Count; c++)
         {
             var (left, right) = (midpoints[c].Solution.RealCount, midpoints[c + 1].Solution.RealCount);
-            var at = crossings[c].S.ToString("G6", CultureInfo.InvariantCulture);
-            if (crossings[c].IsBoundary && (left - right) % 2 != 0)
+            var at = groups[c][0].S.ToString("G6", CultureInfo.InvariantCulture);
+            var boundary = groups[c].Any(x => x.IsBoundary);
+            if (boundary && (left - right) % 2 != 0)
             {
                 flags.Add($"line {lineIndex}: the real count changes by an odd number ({left} to {right}) across the fold at s = {at}");
             }
-            else if (!crossings[c].IsBoundary && left != right)
+            else if (!boundary && left != right)
             {
                 flags.Add($"line {lineIndex}: the real count changes ({left} to {right}) across a passage through infinity at s = {at}");
             }
 
-            if (!crossings[c].IsBoundary)
+            if (!boundary)
             {
                 continue;
             }
 
             // Stay inside the neighbouring intervals: at most a quarter of each.
+            var s = groups[c][0].S;
             var below = Math.Min(delta, 0.25 * (bounds[c + 1] - bounds[c]));
             var above = Math.Min(delta, 0.25 * (bounds[c + 2] - bounds[c + 1]));
-            samples.Add(Inherit(origin, direction, crossings[c].S - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
-            samples.Add(Inherit(origin, direction, crossings[c].S + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
+            samples.Add(Inherit(origin, direction, s - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
+            samples.Add(Inherit(origin, direction, s + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
+        }
+
+        foreach (var crossing in atEnds.Where(c => c.IsBoundary))
+        {
+            var inner = crossing.S - sMin <= tolerance ? 0 : intervals - 1;
+            var offset = Math.Min(delta, 0.25 * (bounds[inner + 1] - bounds[inner]));
+            var s = inner == 0 ? sMin + offset : sMax - offset;
+            samples.Add(Inherit(origin, direction, s, lineIndex, SampleKind.NearBoundary, midpoints[inner], flags));
         }
 
         // The uniform point that defined the line is s = 0; it lies in one interval.

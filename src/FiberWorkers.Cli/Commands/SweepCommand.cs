@@ -1,0 +1,132 @@
+using System.CommandLine;
+using System.Globalization;
+using System.Text.Json;
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Atlas.Stores;
+using FiberWorkers.Atlas.Sweeps;
+using FiberWorkers.Cli.Output;
+using FiberWorkers.Solving.StartFibers;
+
+namespace FiberWorkers.Cli.Commands;
+
+/// <summary>
+/// <c>fiber sweep FAMILY --atlas FILE [--tiles 6x6|auto] [--lines N] [--seed S] [--threads K] [--json]</c>: maps the
+/// parameter box into regions by real count and commits a new atlas version.
+/// </summary>
+internal static class SweepCommand
+{
+    public static Command Create(TextWriter output, TextWriter error)
+    {
+        var family = new FamilyArguments();
+        var atlas = new Option<string>("--atlas") { Description = "The atlas file (SQLite) to write; created when absent.", Required = true };
+        var tiles = new Option<string>("--tiles") { Description = "Tiles per axis, e.g. 6x6 or 6x6x6, or auto (from --budget).", DefaultValueFactory = _ => "auto" };
+        var lines = new Option<int>("--lines") { Description = "Lines per tile.", DefaultValueFactory = _ => 4 };
+        var seed = new Option<long>("--seed") { Description = "Seed of every random choice.", DefaultValueFactory = _ => 1 };
+        var threads = new Option<int>("--threads") { Description = "Tiles computed at once (default: all cores).", DefaultValueFactory = _ => Environment.ProcessorCount };
+        var delta = new Option<double>("--delta") { Description = "Near-boundary offset as a fraction of a tile.", DefaultValueFactory = _ => 0.01 };
+        var refine = new Option<int>("--refine-depth") { Description = "Levels of refinement for tiles with crossings.", DefaultValueFactory = _ => 0 };
+        var budget = new Option<long?>("--budget") { Description = "Sample budget: picks the tiles for --tiles auto and caps refinement." };
+        var startMethod = new Option<string>("--start-method") { Description = "auto, total-degree or monodromy for the family's start fiber.", DefaultValueFactory = _ => "auto" };
+        startMethod.AcceptOnlyFromAmong("auto", "total-degree", "monodromy");
+        var json = new Option<bool>("--json") { Description = "Print the summary as one JSON object." };
+        var command = new Command("sweep", "Map the parameter box into regions by real-solution count, with the boundary located, into an atlas.");
+        family.AddTo(command);
+        foreach (var option in new Option[] { atlas, tiles, lines, seed, threads, delta, refine, budget, startMethod, json })
+        {
+            command.Options.Add(option);
+        }
+
+        command.SetAction((parse, cancellation) =>
+        {
+            var definition = family.Load(parse);
+            if (definition.Parameters.Count == 0)
+            {
+                throw new InputException(definition.Source, "parameters", "a sweep needs at least one parameter with a box");
+            }
+
+            var options = new SweepOptions
+            {
+                Divisions = Divisions(parse.GetValue(tiles)!, definition.Parameters.Count, parse.GetValue(lines), parse.GetValue(budget)),
+                LinesPerTile = Range(parse.GetValue(lines), 1, 10_000, "--lines"),
+                Seed = parse.GetValue(seed) >= 0 ? (ulong)parse.GetValue(seed) : throw new UsageException("--seed must be non-negative"),
+                MaxDegreeOfParallelism = Range(parse.GetValue(threads), 1, 4096, "--threads"),
+                DeltaFraction = parse.GetValue(delta) is > 0 and < 0.25 ? parse.GetValue(delta) : throw new UsageException("--delta must be in (0, 0.25)"),
+                RefineDepth = Range(parse.GetValue(refine), 0, 12, "--refine-depth"),
+                SampleBudget = parse.GetValue(budget) is { } b ? (b > 0 ? b : throw new UsageException("--budget must be positive")) : null,
+                StartMethod = parse.GetValue(startMethod) switch
+                {
+                    "total-degree" => StartFiberMethod.TotalDegree,
+                    "monodromy" => StartFiberMethod.Monodromy,
+                    _ => StartFiberMethod.Auto,
+                },
+            };
+            using var store = SqliteAtlasStore.Open(parse.GetValue(atlas)!);
+            var printer = new ProgressPrinter(error, !Console.IsErrorRedirected && ReferenceEquals(error, Console.Error));
+            SweepSummary summary;
+            try
+            {
+                summary = new SweepRunner(store).Run(definition, options, printer, cancellation);
+            }
+            finally
+            {
+                printer.Finish();
+            }
+
+            if (parse.GetValue(json))
+            {
+                JsonOutput.Write(output, writer => AtlasOutput.WriteSummary(writer, summary));
+            }
+            else
+            {
+                foreach (var line in summary.StartFibers)
+                {
+                    output.WriteLine($"start fiber {line}");
+                }
+
+                AtlasOutput.WriteText(output, summary);
+                output.WriteLine(string.Create(CultureInfo.InvariantCulture, $"time        {summary.Elapsed.TotalSeconds:F1} s, {summary.TilesComputed} tiles computed, {summary.PathsTracked} paths"));
+                output.WriteLine(FiberOutput.Caution);
+            }
+
+            return Task.FromResult(CommandLine.Success);
+        });
+        return command;
+    }
+
+    /// <summary>"6x6" or "auto": auto spreads the budget (default 4 tiles per axis without one).</summary>
+    internal static int[] Divisions(string text, int parameters, int lines, long? budget)
+    {
+        if (text == "auto")
+        {
+            if (budget is not { } samples)
+            {
+                return [.. Enumerable.Repeat(4, parameters)];
+            }
+
+            // About four samples per line (uniform point, a midpoint or two, near-boundary pairs) in a typical tile.
+            var tiles = Math.Max(1.0, samples / (4.0 * Math.Max(1, lines)));
+            var perAxis = (int)Math.Clamp(Math.Round(Math.Pow(tiles, 1.0 / parameters)), 1, 4096);
+            return [.. Enumerable.Repeat(perAxis, parameters)];
+        }
+
+        var parts = text.Split('x');
+        if (parts.Length != parameters)
+        {
+            throw new UsageException($"--tiles '{text}' has {parts.Length} axes; this family has {parameters} parameters (e.g. {string.Join('x', Enumerable.Repeat(6, parameters))})");
+        }
+
+        var divisions = new int[parts.Length];
+        for (var k = 0; k < parts.Length; k++)
+        {
+            if (!int.TryParse(parts[k], NumberStyles.None, CultureInfo.InvariantCulture, out divisions[k]) || divisions[k] < 1 || divisions[k] > 4096)
+            {
+                throw new UsageException($"--tiles '{text}': axis {k + 1} must be an integer from 1 to 4096");
+            }
+        }
+
+        return divisions;
+    }
+
+    private static int Range(int value, int low, int high, string option) =>
+        value >= low && value <= high ? value : throw new UsageException($"{option} must be between {low} and {high}, got {value}");
+}
