@@ -16,4 +16,7 @@ public sealed record NewtonOptions
 
     /// <summary>Stop early, as failed, when a step grows the residual for this many iterations in a row. Default 4.</summary>
     public int MaxGrowingSteps { get; init; } = 4;
+
+    /// <summary>Estimate κ₁(∂F/∂x) at the end (a few extra solves); NaN when off. Default true.</summary>
+    public bool EstimateCondition { get; init; } = true;
 }

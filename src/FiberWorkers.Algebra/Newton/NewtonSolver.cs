@@ -62,6 +62,12 @@ public static class NewtonSolver
             }
         }
 
+        if (!options.EstimateCondition)
+        {
+            system.Evaluate(x, p, values, workspace.Evaluation);
+            return new NewtonResult(converged, iterations, MaxNorm(values), stepNorm, double.NaN);
+        }
+
         system.Evaluate(x, p, values, jacobian, workspace.Evaluation);
         var finalResidual = MaxNorm(values);
         var matrixNorm = ComplexLu.OneNorm(jacobian, n);

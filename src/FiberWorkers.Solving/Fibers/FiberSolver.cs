@@ -340,7 +340,9 @@ public sealed class FiberSolver
         // The path already ends converged in the chart; a few affine Newton steps bring it to full precision
         // in the coordinates the certificate is computed in.
         var x = (Complex[])path.Endpoint.Clone();
-        var options = new NewtonOptions { MaxIterations = path.Status == PathStatus.Regular ? 3 : 0, StepTolerance = 1e-15 };
+        // Regular ends get their condition number exactly from the certificate; only singular ones need the estimate.
+        var regular = path.Status == PathStatus.Regular;
+        var options = new NewtonOptions { MaxIterations = regular ? 3 : 0, StepTolerance = 1e-15, EstimateCondition = !regular };
         var result = NewtonSolver.Solve(_affine, parameters, x, options, workspace);
         return path with { Endpoint = x, Residual = result.ResidualNorm, Condition = result.ConditionEstimate };
     }

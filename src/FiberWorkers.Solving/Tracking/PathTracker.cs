@@ -29,7 +29,13 @@ internal sealed class PathTracker
     private readonly Complex[] _work;
     private readonly Complex[] _unit;
     private readonly int[] _pivots;
+    private readonly Complex[] _previous;
+    private readonly Complex[] _previousTangent;
     private double _moveNorm;
+
+    // True when _jacobian/_pivots hold factors at the predicted point's t (Runge–Kutta's last stage); the Hermite
+    // predictor leaves the corrector to factor the Jacobian at the predicted point itself.
+    private bool _factorsAtPrediction;
 
     public PathTracker(IHomotopy homotopy)
     {
@@ -48,6 +54,8 @@ internal sealed class PathTracker
         _work = new Complex[2 * _n];
         _unit = new Complex[_n];
         _pivots = new int[_n];
+        _previous = new Complex[_n];
+        _previousTangent = new Complex[_n];
     }
 
     public IHomotopy Homotopy => _homotopy;
@@ -60,9 +68,11 @@ internal sealed class PathTracker
         var span = tEnd - tStart;
         var budget = maxSteps ?? options.MaxSteps;
         var tau = 0.0;
+        var previousTau = double.NaN;
         var stepSize = options.InitialStepSize;
         var steps = 0;
         var rejections = 0;
+        var hermite = options.Predictor == Predictor.Hermite;
         if (!Derivative(x, tStart, span, _k1))
         {
             return new TrackOutcome(TrackStatus.SingularJacobian, 0, 0, 0, stepSize);
@@ -81,8 +91,9 @@ internal sealed class PathTracker
             var iterations = 0;
             var firstCorrection = 0.0;
             var contraction = 0.0;
-            var accepted = Predict(x, tStart, span, tau, step)
-                && Correct(newT, options, out iterations, out firstCorrection, out contraction);
+            var useHermite = hermite && !double.IsNaN(previousTau);
+            var predicted = useHermite ? PredictHermite(x, tau - previousTau, step) : Predict(x, tStart, span, tau, step);
+            var accepted = predicted && Correct(newT, options, out iterations, out firstCorrection, out contraction);
             if (!accepted)
             {
                 rejections++;
@@ -95,6 +106,9 @@ internal sealed class PathTracker
                 continue;
             }
 
+            x.CopyTo(_previous);
+            _k1.AsSpan().CopyTo(_previousTangent);
+            previousTau = tau;
             _predicted.AsSpan().CopyTo(x);
             tau = last ? 1 : tau + step;
             steps++;
@@ -103,11 +117,13 @@ internal sealed class PathTracker
                 return new TrackOutcome(TrackStatus.SingularJacobian, tau, steps, rejections, stepSize);
             }
 
-            // Step growth from the predictor error e ≈ C·h⁵: aim for e at the tolerance, never more than ×2
-            // per step; a corrector that needed every iteration or contracted slowly holds the step.
+            // Step growth from the predictor error e ≈ C·h^(p+1) (p = 4 for Runge–Kutta, 3 for the Hermite
+            // extrapolation): aim for e at the tolerance, never more than ×2 per step; a corrector that needed every
+            // iteration or contracted slowly holds the step.
             var scale = 1 + MaxNorm(x);
             var error = firstCorrection / scale;
-            var factor = error > 0 ? 0.9 * Math.Pow(options.PredictorTolerance / error, 0.2) : 2.0;
+            var exponent = useHermite ? 0.25 : 0.2;
+            var factor = error > 0 ? 0.9 * Math.Pow(options.PredictorTolerance / error, exponent) : 2.0;
             if (iterations >= options.MaxCorrectorIterations || contraction > 0.5 * options.MaxContraction)
             {
                 factor = Math.Min(factor, 1.0);
@@ -121,6 +137,31 @@ internal sealed class PathTracker
         }
 
         return new TrackOutcome(TrackStatus.Completed, 1, steps, rejections, stepSize);
+    }
+
+    /// <summary>
+    /// Cubic Hermite extrapolation: the cubic through (τ₋₁, x₋₁, x′₋₁) and (τ₀, x₀, x′₀), evaluated at τ₀ + h. With
+    /// H = τ₀ − τ₋₁ and u = 1 + h/H the basis is h₀₀ = 2u³ − 3u² + 1, h₁₀ = u³ − 2u² + u, h₀₁ = −2u³ + 3u²,
+    /// h₁₁ = u³ − u²; the extrapolation error is O(h·H³ + h⁴) times the fourth derivative of the path.
+    /// </summary>
+    private bool PredictHermite(ReadOnlySpan<Complex> x, double previousStep, double step)
+    {
+        var u = 1 + (step / previousStep);
+        var u2 = u * u;
+        var u3 = u2 * u;
+        var h00 = (2 * u3) - (3 * u2) + 1;
+        var h10 = (u3 - (2 * u2) + u) * previousStep;
+        var h01 = (-2 * u3) + (3 * u2);
+        var h11 = (u3 - u2) * previousStep;
+        _moveNorm = 0;
+        for (var i = 0; i < _n; i++)
+        {
+            _predicted[i] = (h00 * _previous[i]) + (h10 * _previousTangent[i]) + (h01 * x[i]) + (h11 * _k1[i]);
+            _moveNorm = Math.Max(_moveNorm, Complex.Abs(_predicted[i] - x[i]));
+        }
+
+        _factorsAtPrediction = false;
+        return true;
     }
 
     /// <summary>
@@ -253,6 +294,7 @@ internal sealed class PathTracker
         }
 
         // Remember the predicted move for the path-jumping guard in the corrector.
+        _factorsAtPrediction = true;
         _moveNorm = 0;
         for (var i = 0; i < _n; i++)
         {
@@ -272,8 +314,21 @@ internal sealed class PathTracker
         var point = _predicted.AsSpan();
         for (var k = 0; k < options.MaxCorrectorIterations; k++)
         {
-            // _jacobian and _pivots still hold the factors from the fourth stage, evaluated at the new t.
-            _homotopy.Evaluate(point, t, _values);
+            // Simplified Newton: after Runge–Kutta, _jacobian and _pivots hold the fourth stage's factors at the new t;
+            // after the Hermite predictor the first iteration factors the Jacobian at the predicted point.
+            if (k == 0 && !_factorsAtPrediction)
+            {
+                _homotopy.Evaluate(point, t, _values, _jacobian);
+                if (!ComplexLu.Factor(_jacobian, _n, _pivots))
+                {
+                    return false;
+                }
+            }
+            else
+            {
+                _homotopy.Evaluate(point, t, _values);
+            }
+
             ComplexLu.Solve(_jacobian, _n, _pivots, _values);
             var norm = MaxNorm(_values);
             if (!double.IsFinite(norm))

@@ -1,8 +1,25 @@
 namespace FiberWorkers.Solving.Tracking;
 
+/// <summary>The predictor of the path tracker.</summary>
+public enum Predictor
+{
+    /// <summary>Classical fourth-order Runge–Kutta: four Jacobian factorizations per step, no history needed.</summary>
+    RungeKutta4,
+
+    /// <summary>
+    /// Cubic Hermite extrapolation through the last two accepted points and their tangents: no extra evaluations,
+    /// so a step costs two factorizations (the corrector's and the new tangent's). The first step of a segment uses
+    /// Runge–Kutta.
+    /// </summary>
+    Hermite,
+}
+
 /// <summary>Settings of the predictor–corrector path tracker. Step sizes are fractions of one tracked segment.</summary>
 public sealed record TrackerOptions
 {
+    /// <summary>The predictor. Default <see cref="Predictor.Hermite"/>.</summary>
+    public Predictor Predictor { get; init; } = Predictor.RungeKutta4;
+
     /// <summary>The defaults.</summary>
     public static TrackerOptions Default { get; } = new();
 
