@@ -11,7 +11,10 @@ namespace FiberWorkers.Atlas.Sampling;
 /// Boundary-aware sampling on one line: the real count is constant between consecutive real crossings, so each
 /// interval's midpoint is solved in full and labels the points near its ends (crossing ± δ) and the line's
 /// uniform point; those get their real solutions by real-only tracking from the midpoint, which stays inside the
-/// interval. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
+/// interval. δ is measured perpendicular to the locus where its normal is known (at finite folds, from the left null
+/// vector of ∂F/∂x): a line that grazes the locus would otherwise put "near-boundary" points far closer to it than δ,
+/// where no classifier can tell the sides apart from neighbours. The offset along the line is δ/cos φ (φ the angle
+/// between line and normal), at most a quarter of the neighbouring interval. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
 /// them) but are not boundaries: the count must agree on both sides. Counts that change by an odd number across a
 /// fold, or at all across a passage, are flagged and kept.
 /// </summary>
@@ -21,12 +24,15 @@ internal sealed class LineSampler
     private readonly StartFiber _start;
     private readonly int _unknowns;
 
-    public LineSampler(FiberSolver solver, StartFiber start)
+    public LineSampler(FiberSolver solver, StartFiber start, double[] widths)
     {
         _solver = solver;
         _start = start;
         _unknowns = solver.System.UnknownCount;
+        _widths = widths;
     }
+
+    private readonly double[] _widths;
 
     /// <summary>Samples of the line; adds flags for inconsistencies. <paramref name="delta"/> is in s units.</summary>
     public List<Sample> Sample(
@@ -91,8 +97,9 @@ internal sealed class LineSampler
 
             // Stay inside the neighbouring intervals: at most a quarter of each.
             var s = groups[c][0].S;
-            var below = Math.Min(delta, 0.25 * (bounds[c + 1] - bounds[c]));
-            var above = Math.Min(delta, 0.25 * (bounds[c + 2] - bounds[c + 1]));
+            var offset = AlongLine(groups[c][0], origin, direction, delta);
+            var below = Math.Min(offset, 0.25 * (bounds[c + 1] - bounds[c]));
+            var above = Math.Min(offset, 0.25 * (bounds[c + 2] - bounds[c + 1]));
             samples.Add(Inherit(origin, direction, s - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
             samples.Add(Inherit(origin, direction, s + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
         }
@@ -100,7 +107,7 @@ internal sealed class LineSampler
         foreach (var crossing in atEnds.Where(c => c.IsBoundary))
         {
             var inner = crossing.S - sMin <= tolerance ? 0 : intervals - 1;
-            var offset = Math.Min(delta, 0.25 * (bounds[inner + 1] - bounds[inner]));
+            var offset = Math.Min(AlongLine(crossing, origin, direction, delta), 0.25 * (bounds[inner + 1] - bounds[inner]));
             var s = inner == 0 ? sMin + offset : sMax - offset;
             samples.Add(Inherit(origin, direction, s, lineIndex, SampleKind.NearBoundary, midpoints[inner], flags));
         }
@@ -114,6 +121,38 @@ internal sealed class LineSampler
 
         samples.Insert(0, Inherit(origin, direction, 0, lineIndex, SampleKind.Uniform, midpoints[home], flags));
         return samples;
+    }
+
+    /// <summary>The offset along the line (s units) that puts a point δ from the locus, perpendicular to it.</summary>
+    private double AlongLine(LineCrossing crossing, double[] origin, double[] direction, double delta)
+    {
+        if (crossing.Kind != CrossingKind.Fold)
+        {
+            return delta;
+        }
+
+        var point = new double[direction.Length];
+        var unit = new double[direction.Length];
+        for (var k = 0; k < direction.Length; k++)
+        {
+            point[k] = origin[k] + (crossing.S * direction[k]);
+            unit[k] = direction[k] / _widths[k];
+        }
+
+        var normal = LocusNormal.Compute(_solver.Compiled, crossing.Solution, point, _widths);
+        if (normal is null)
+        {
+            return delta;
+        }
+
+        var cosine = 0.0;
+        for (var k = 0; k < normal.Length; k++)
+        {
+            cosine += normal[k] * unit[k];
+        }
+
+        // Grazing lines would need very long offsets; beyond ten δ the point is no longer "near" along the line.
+        return delta / Math.Max(Math.Abs(cosine), 0.1);
     }
 
     /// <summary>A sample labeled by its interval's midpoint, with real solutions tracked from there.</summary>

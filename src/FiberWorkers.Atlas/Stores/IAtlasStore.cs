@@ -32,6 +32,20 @@ public interface IAtlasStore : IDisposable
     /// </summary>
     int CommitSweep(long sweepId, string kind, Func<IReadOnlyDictionary<string, string>, (string ContentHash, string Summary)> describe);
 
+    /// <summary>
+    /// Commits a version derived from <paramref name="parent"/> without a sweep: the parent's tiles plus
+    /// <paramref name="addedTiles"/> (stored by content hash), and optionally a blob stored under a key that names the
+    /// new version (use <c>{version}</c> in the key). Returns the new version.
+    /// </summary>
+    int CommitDerived(
+        string atlasId,
+        int parent,
+        string kind,
+        string optionsText,
+        IReadOnlyList<(string TileKey, string TileHash, byte[] Payload)> addedTiles,
+        (string KeyPattern, byte[] Payload)? blob,
+        Func<IReadOnlyDictionary<string, string>, (string ContentHash, string Summary)> describe);
+
     /// <summary>Versions of an atlas, oldest first.</summary>
     IReadOnlyList<AtlasVersionInfo> Versions(string atlasId);
 

@@ -245,6 +245,70 @@ public sealed class SqliteAtlasStore : IAtlasStore
     }
 
     /// <inheritdoc />
+    public int CommitDerived(
+        string atlasId,
+        int parent,
+        string kind,
+        string optionsText,
+        IReadOnlyList<(string TileKey, string TileHash, byte[] Payload)> addedTiles,
+        (string KeyPattern, byte[] Payload)? blob,
+        Func<IReadOnlyDictionary<string, string>, (string ContentHash, string Summary)> describe)
+    {
+        ArgumentNullException.ThrowIfNull(addedTiles);
+        ArgumentNullException.ThrowIfNull(describe);
+        lock (_gate)
+        {
+            var tiles = new SortedDictionary<string, string>(VersionTilesUnlocked(atlasId, parent), StringComparer.Ordinal);
+            foreach (var (key, hash, _) in addedTiles)
+            {
+                tiles[key] = hash;
+            }
+
+            var (contentHash, summary) = describe(tiles);
+            using var transaction = _connection.BeginTransaction();
+            var version = Query("SELECT COALESCE(MAX(version), 0) + 1 FROM versions WHERE atlas_id = $a", r => r.GetInt32(0), transaction, ("$a", atlasId))[0];
+            foreach (var (_, hash, payload) in addedTiles)
+            {
+                Execute("INSERT OR IGNORE INTO tiles (tile_hash, payload) VALUES ($h, $p)", transaction, ("$h", hash), ("$p", payload));
+            }
+
+            if (blob is { } extra)
+            {
+                Execute(
+                    "INSERT OR REPLACE INTO blobs (blob_key, payload) VALUES ($k, $p)",
+                    transaction,
+                    ("$k", extra.KeyPattern.Replace("{version}", version.ToString(CultureInfo.InvariantCulture), StringComparison.Ordinal)),
+                    ("$p", extra.Payload));
+            }
+
+            Execute(
+                "INSERT INTO versions (atlas_id, version, parent, kind, created, options_text, content_hash, summary_json) VALUES ($a, $v, $p, $k, $c, $o, $h, $j)",
+                transaction,
+                ("$a", atlasId),
+                ("$v", version),
+                ("$p", parent),
+                ("$k", kind),
+                ("$c", Now()),
+                ("$o", optionsText),
+                ("$h", contentHash),
+                ("$j", summary));
+            foreach (var (key, hash) in tiles)
+            {
+                Execute(
+                    "INSERT INTO version_tiles (atlas_id, version, tile_key, tile_hash) VALUES ($a, $v, $k, $h)",
+                    transaction,
+                    ("$a", atlasId),
+                    ("$v", version),
+                    ("$k", key),
+                    ("$h", hash));
+            }
+
+            transaction.Commit();
+            return version;
+        }
+    }
+
+    /// <inheritdoc />
     public IReadOnlyList<AtlasVersionInfo> Versions(string atlasId)
     {
         lock (_gate)

@@ -41,7 +41,7 @@ public static class TileComputer
         // the parameters alike whatever their units.
         var tileWidth = 1.0 / (options.Divisions.Max() * (double)(1L << key.Level));
         var delta = options.DeltaFraction * tileWidth;
-        var sampler = new LineSampler(context.FamilySolver, context.FamilyStart);
+        var sampler = new LineSampler(context.FamilySolver, context.FamilyStart, [.. box.Select(b => b.Width)]);
         var flags = new List<string>();
         long paths = 0;
         for (var line = 0; line < options.LinesPerTile; line++)

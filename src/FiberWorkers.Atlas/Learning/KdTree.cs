@@ -1,0 +1,302 @@
+using System.Runtime.CompilerServices;
+
+namespace FiberWorkers.Atlas.Learning;
+
+/// <summary>
+/// A k-d tree (Bentley 1975) for exact nearest-neighbour queries in a few dimensions: points are split at the median
+/// of the axis of largest spread into buckets of a few points; queries descend to the query's bucket, then visit other
+/// buckets only when their box is nearer than the best distance so far (Friedman, Bentley &amp; Finkel 1977).
+/// Queries allocate nothing (an explicit stack on the stack); ties go to the smaller point index, so answers are
+/// deterministic. Immutable after construction and safe for concurrent queries.
+/// </summary>
+public sealed class KdTree
+{
+    private const int BucketSize = 8;
+    private const int MaxDepth = 64;
+
+    private readonly double[] _points;
+    private readonly int[] _order;
+    private readonly Node[] _nodes;
+
+    /// <summary>Builds the tree over <paramref name="points"/> (row-major, <paramref name="dimension"/> per point).</summary>
+    public KdTree(double[] points, int dimension)
+    {
+        ArgumentNullException.ThrowIfNull(points);
+        ArgumentOutOfRangeException.ThrowIfLessThan(dimension, 1);
+        if (points.Length % dimension != 0)
+        {
+            throw new ArgumentException($"{points.Length} values are not a whole number of {dimension}-dimensional points", nameof(points));
+        }
+
+        foreach (var value in points)
+        {
+            if (!double.IsFinite(value))
+            {
+                throw new ArgumentException("points must be finite", nameof(points));
+            }
+        }
+
+        Dimension = dimension;
+        Count = points.Length / dimension;
+        _points = points;
+        _order = new int[Count];
+        for (var i = 0; i < Count; i++)
+        {
+            _order[i] = i;
+        }
+
+        var nodes = new List<Node>(Math.Max(1, 2 * Count / BucketSize));
+        if (Count > 0)
+        {
+            Build(nodes, 0, Count, 0);
+        }
+
+        _nodes = [.. nodes];
+    }
+
+    /// <summary>The dimension of the points.</summary>
+    public int Dimension { get; }
+
+    /// <summary>The number of points.</summary>
+    public int Count { get; }
+
+    /// <summary>Approximate memory held by the tree, in bytes.</summary>
+    public long MemoryBytes => (_points.Length * 8L) + (_order.Length * 4L) + (_nodes.Length * (long)Unsafe.SizeOf<Node>());
+
+    /// <summary>Coordinate <paramref name="axis"/> of point <paramref name="index"/>.</summary>
+    public double Coordinate(int index, int axis) => _points[(index * Dimension) + axis];
+
+    /// <summary>The nearest point to <paramref name="query"/>: its index and squared Euclidean distance.</summary>
+    public (int Index, double SquaredDistance) Nearest(ReadOnlySpan<double> query)
+    {
+        Span<int> nearest = stackalloc int[1];
+        Span<double> distances = stackalloc double[1];
+        var found = Nearest(query, nearest, distances);
+        return found == 0 ? (-1, double.PositiveInfinity) : (nearest[0], distances[0]);
+    }
+
+    /// <summary>
+    /// The k = <paramref name="indices"/>.Length nearest points, closest first, into caller-owned spans; returns how
+    /// many were found (fewer when the tree holds fewer points).
+    /// </summary>
+    public int Nearest(ReadOnlySpan<double> query, Span<int> indices, Span<double> squaredDistances)
+    {
+        if (query.Length != Dimension)
+        {
+            throw new ArgumentException($"the query has {query.Length} coordinates, the tree {Dimension}", nameof(query));
+        }
+
+        var k = Math.Min(indices.Length, squaredDistances.Length);
+        if (k == 0 || Count == 0)
+        {
+            return 0;
+        }
+
+        var found = 0;
+        Span<int> stack = stackalloc int[MaxDepth * 2];
+        Span<double> bounds = stackalloc double[MaxDepth * 2];
+        var top = 0;
+        stack[top] = 0;
+        bounds[top++] = 0;
+        while (top > 0)
+        {
+            top--;
+            var nodeIndex = stack[top];
+            var nodeBound = bounds[top];
+            if (found == k && nodeBound > squaredDistances[k - 1])
+            {
+                continue;
+            }
+
+            ref readonly var node = ref _nodes[nodeIndex];
+            if (node.Axis < 0)
+            {
+                for (var p = node.Start; p < node.End; p++)
+                {
+                    var index = _order[p];
+                    var distance = SquaredDistance(query, index);
+                    found = Insert(index, distance, indices, squaredDistances, found, k);
+                }
+
+                continue;
+            }
+
+            var difference = query[node.Axis] - node.Split;
+            var (near, far) = difference <= 0 ? (node.Left, node.Right) : (node.Right, node.Left);
+            // Far side first on the stack, so the near side is searched first; its bound is the distance to the split.
+            stack[top] = far;
+            bounds[top++] = Math.Max(nodeBound, difference * difference);
+            stack[top] = near;
+            bounds[top++] = nodeBound;
+        }
+
+        return found;
+    }
+
+    /// <summary>Brute-force nearest neighbour, the reference the tree is tested against.</summary>
+    public (int Index, double SquaredDistance) NearestByScan(ReadOnlySpan<double> query)
+    {
+        var best = -1;
+        var bestDistance = double.PositiveInfinity;
+        for (var i = 0; i < Count; i++)
+        {
+            var distance = SquaredDistance(query, i);
+            if (distance < bestDistance)
+            {
+                best = i;
+                bestDistance = distance;
+            }
+        }
+
+        return (best, bestDistance);
+    }
+
+    private static int Insert(int index, double distance, Span<int> indices, Span<double> distances, int found, int k)
+    {
+        if (found == k && !Before(distance, index, distances[k - 1], indices[k - 1]))
+        {
+            return found;
+        }
+
+        var position = found < k ? found : k - 1;
+        while (position > 0 && Before(distance, index, distances[position - 1], indices[position - 1]))
+        {
+            distances[position] = distances[position - 1];
+            indices[position] = indices[position - 1];
+            position--;
+        }
+
+        distances[position] = distance;
+        indices[position] = index;
+        return found < k ? found + 1 : k;
+    }
+
+    /// <summary>Closer first; equal distances by smaller index (deterministic ties).</summary>
+    private static bool Before(double distance, int index, double otherDistance, int otherIndex) =>
+        distance < otherDistance || (distance == otherDistance && index < otherIndex);
+
+    [MethodImpl(MethodImplOptions.AggressiveInlining)]
+    private double SquaredDistance(ReadOnlySpan<double> query, int index)
+    {
+        var point = _points.AsSpan(index * Dimension, Dimension);
+        var sum = 0.0;
+        for (var d = 0; d < point.Length; d++)
+        {
+            var difference = query[d] - point[d];
+            sum += difference * difference;
+        }
+
+        return sum;
+    }
+
+    private int Build(List<Node> nodes, int start, int end, int depth)
+    {
+        var self = nodes.Count;
+        nodes.Add(default);
+        if (end - start <= BucketSize || depth >= MaxDepth - 1)
+        {
+            nodes[self] = new Node(-1, 0, start, end, -1, -1);
+            return self;
+        }
+
+        var axis = WidestAxis(start, end);
+        var middle = (start + end) / 2;
+        Select(start, end, middle, axis);
+        var split = Coordinate(_order[middle], axis);
+        var left = Build(nodes, start, middle, depth + 1);
+        var right = Build(nodes, middle, end, depth + 1);
+        nodes[self] = new Node(axis, split, start, end, left, right);
+        return self;
+    }
+
+    private int WidestAxis(int start, int end)
+    {
+        var best = 0;
+        var bestSpread = -1.0;
+        for (var axis = 0; axis < Dimension; axis++)
+        {
+            var low = double.PositiveInfinity;
+            var high = double.NegativeInfinity;
+            for (var p = start; p < end; p++)
+            {
+                var value = Coordinate(_order[p], axis);
+                low = Math.Min(low, value);
+                high = Math.Max(high, value);
+            }
+
+            if (high - low > bestSpread)
+            {
+                bestSpread = high - low;
+                best = axis;
+            }
+        }
+
+        return best;
+    }
+
+    /// <summary>
+    /// Reorders _order[start, end) so that position <paramref name="nth"/> holds the element of that rank by
+    /// (coordinate, index), everything before it no larger and everything after no smaller (Hoare's selection).
+    /// Points on the split go left or right consistently, which the search's ≤ handles.
+    /// </summary>
+    private void Select(int start, int end, int nth, int axis)
+    {
+        var low = start;
+        var high = end - 1;
+        while (low < high)
+        {
+            var pivot = _order[(low + high) >>> 1];
+            var pivotValue = Coordinate(pivot, axis);
+            var i = low;
+            var j = high;
+            while (i <= j)
+            {
+                while (BelowPivot(_order[i], pivot, pivotValue, axis))
+                {
+                    i++;
+                }
+
+                while (AbovePivot(_order[j], pivot, pivotValue, axis))
+                {
+                    j--;
+                }
+
+                if (i <= j)
+                {
+                    (_order[i], _order[j]) = (_order[j], _order[i]);
+                    i++;
+                    j--;
+                }
+            }
+
+            if (nth <= j)
+            {
+                high = j;
+            }
+            else if (nth >= i)
+            {
+                low = i;
+            }
+            else
+            {
+                return;
+            }
+        }
+    }
+
+    /// <summary>(coordinate, index) of point a is below the pivot's.</summary>
+    private bool BelowPivot(int a, int pivot, double pivotValue, int axis)
+    {
+        var value = Coordinate(a, axis);
+        return value < pivotValue || (value == pivotValue && a < pivot);
+    }
+
+    /// <summary>(coordinate, index) of point b is above the pivot's.</summary>
+    private bool AbovePivot(int b, int pivot, double pivotValue, int axis)
+    {
+        var value = Coordinate(b, axis);
+        return value > pivotValue || (value == pivotValue && b > pivot);
+    }
+
+    private readonly record struct Node(int Axis, double Split, int Start, int End, int Left, int Right);
+}
