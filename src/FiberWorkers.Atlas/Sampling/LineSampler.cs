@@ -24,7 +24,10 @@ internal sealed class LineSampler
     private readonly StartFiber _start;
     private readonly int _unknowns;
 
-    public LineSampler(FiberSolver solver, StartFiber start, double[] widths)
+    /// <param name="solver">The family's solver.</param>
+    /// <param name="start">The family's start fiber.</param>
+    /// <param name="widths">The box's widths, for δ perpendicular to the locus; null keeps δ along the line.</param>
+    public LineSampler(FiberSolver solver, StartFiber start, double[]? widths = null)
     {
         _solver = solver;
         _start = start;
@@ -32,7 +35,7 @@ internal sealed class LineSampler
         _widths = widths;
     }
 
-    private readonly double[] _widths;
+    private readonly double[]? _widths;
 
     /// <summary>Samples of the line; adds flags for inconsistencies. <paramref name="delta"/> is in s units.</summary>
     public List<Sample> Sample(
@@ -126,7 +129,7 @@ internal sealed class LineSampler
     /// <summary>The offset along the line (s units) that puts a point δ from the locus, perpendicular to it.</summary>
     private double AlongLine(LineCrossing crossing, double[] origin, double[] direction, double delta)
     {
-        if (crossing.Kind != CrossingKind.Fold)
+        if (crossing.Kind != CrossingKind.Fold || _widths is null)
         {
             return delta;
         }
