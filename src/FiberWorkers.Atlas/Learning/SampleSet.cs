@@ -60,6 +60,27 @@ public sealed class SampleSet
         return new SampleSet(Box, [.. chosen.Select(i => Samples[i])], [.. chosen.Select(i => Tiles[i])]);
     }
 
+    /// <summary>
+    /// Splits the samples by line: whole lines go to the held-out part, a seeded share of them, so that no sample is
+    /// judged against its own twin across a crossing. Returns sample indices, each part in atlas order.
+    /// </summary>
+    public (int[] Kept, int[] HeldOut) SplitByLine(double heldOutShare, ulong seed)
+    {
+        var lines = Enumerable.Range(0, Count).Select(i => (Tiles[i], Samples[i].Line)).Distinct().ToArray();
+        var random = new Solving.Randomness.SeededRandom(Solving.Randomness.SeededRandom.Derive(seed, "line-split"));
+        for (var i = lines.Length - 1; i > 0; i--)
+        {
+            var j = random.NextInt(i + 1);
+            (lines[i], lines[j]) = (lines[j], lines[i]);
+        }
+
+        var heldOutCount = Math.Clamp((int)Math.Round(lines.Length * heldOutShare), 1, Math.Max(1, lines.Length - 1));
+        var heldOut = lines.Take(heldOutCount).ToHashSet();
+        var held = Enumerable.Range(0, Count).Where(i => heldOut.Contains((Tiles[i], Samples[i].Line))).ToArray();
+        var kept = Enumerable.Range(0, Count).Where(i => !heldOut.Contains((Tiles[i], Samples[i].Line))).ToArray();
+        return (kept, held);
+    }
+
     /// <summary>Maps a parameter point into normalized coordinates.</summary>
     public void Normalize(ReadOnlySpan<double> point, Span<double> normalized)
     {
