@@ -23,6 +23,13 @@ internal static class CommandLine
         root.Subcommands.Add(ExamplesCommand.Create(output));
         root.Subcommands.Add(SolveCommand.Create(output, error));
         root.Subcommands.Add(SweepCommand.Create(output, error));
+        root.Subcommands.Add(AtlasCommand.Create(output));
+        root.Subcommands.Add(ExportCommand.Create(output));
+        root.Subcommands.Add(MapCommand.Create(output));
+        root.Subcommands.Add(LearnCommand.Create(output));
+        root.Subcommands.Add(LabelCommand.Create(output));
+        root.Subcommands.Add(StudyCommand.Create(output, error));
+        root.Subcommands.Add(AskCommand.Create(output, error));
         root.Subcommands.Add(BenchCommand.Create(output));
         return root;
     }

@@ -126,26 +126,36 @@ internal sealed class LineSampler
         return samples;
     }
 
-    /// <summary>The offset along the line (s units) that puts a point δ from the locus, perpendicular to it.</summary>
-    private double AlongLine(LineCrossing crossing, double[] origin, double[] direction, double delta)
+    /// <summary>The locus normal at a fold crossing (box-normalized), or null when unknown.</summary>
+    public double[]? Normal(LineCrossing crossing, double[] origin, double[] direction)
     {
         if (crossing.Kind != CrossingKind.Fold || _widths is null)
         {
-            return delta;
+            return null;
         }
 
         var point = new double[direction.Length];
-        var unit = new double[direction.Length];
         for (var k = 0; k < direction.Length; k++)
         {
             point[k] = origin[k] + (crossing.S * direction[k]);
-            unit[k] = direction[k] / _widths[k];
         }
 
-        var normal = LocusNormal.Compute(_solver.Compiled, crossing.Solution, point, _widths);
+        return LocusNormal.Compute(_solver.Compiled, crossing.Solution, point, _widths);
+    }
+
+    /// <summary>The offset along the line (s units) that puts a point δ from the locus, perpendicular to it.</summary>
+    private double AlongLine(LineCrossing crossing, double[] origin, double[] direction, double delta)
+    {
+        var normal = Normal(crossing, origin, direction);
         if (normal is null)
         {
             return delta;
+        }
+
+        var unit = new double[direction.Length];
+        for (var k = 0; k < direction.Length; k++)
+        {
+            unit[k] = direction[k] / _widths![k];
         }
 
         var cosine = 0.0;

@@ -85,6 +85,7 @@ public static class AtlasContent
         SampleKind.Uniform => "uniform",
         SampleKind.Midpoint => "midpoint",
         SampleKind.NearBoundary => "near-boundary",
+        SampleKind.Resolved => "resolved",
         _ => "unspecified",
     };
 

@@ -189,7 +189,7 @@ public sealed class SweepRunner
         _store.PutBlob(StartFiberKey(family, options, kind), StartFiberFile.Serialize(fiber));
 
     /// <summary>Start fibers depend on the family, the kind, the seed (charts, generic point) and the method.</summary>
-    private static string StartFiberKey(FamilyDefinition family, SweepOptions options, string kind) =>
+    internal static string StartFiberKey(FamilyDefinition family, SweepOptions options, string kind) =>
         $"start-fiber/{family.ContentHash}/{kind}/{options.Seed}/{options.StartMethod}";
 
     /// <summary>Counters of one run.</summary>

@@ -84,6 +84,11 @@ public static class TileComputer
                 }
 
                 record.Solution.Add(crossing.Solution);
+                if (sampler.Normal(crossing, origin, direction) is { } normal)
+                {
+                    record.Normal.Add(normal);
+                }
+
                 result.Crossings.Add(record);
             }
 

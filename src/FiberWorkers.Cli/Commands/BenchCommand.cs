@@ -17,6 +17,53 @@ internal static class BenchCommand
     {
         var command = new Command("bench", "Measure solver throughput; prints JSON.");
         command.Subcommands.Add(CreateSolve(output));
+        command.Subcommands.Add(CreateResolve(output));
+        return command;
+    }
+
+    private static Command CreateResolve(TextWriter output)
+    {
+        var atlas = new AtlasArguments();
+        var count = new Option<int>("--points") { Description = "Random points to answer.", DefaultValueFactory = _ => 1000 };
+        var seed = new Option<long>("--seed") { Description = "Seed of the points.", DefaultValueFactory = _ => 7 };
+        var near = new Option<double>("--near-share") { Description = "Share of the points placed close to stored crossings.", DefaultValueFactory = _ => 0.3 };
+        var json = new Option<bool>("--json") { Description = "Print JSON (the default output is JSON too; kept for symmetry)." };
+        var command = new Command("resolve", "Answer random points of an atlas's box by real-only resolve and by full solve; compare time and answers.");
+        atlas.AddTo(command);
+        command.Options.Add(count);
+        command.Options.Add(seed);
+        command.Options.Add(near);
+        command.Options.Add(json);
+        command.SetAction(parse =>
+        {
+            var n = parse.GetValue(count) is >= 1 and <= 10_000_000 ? parse.GetValue(count) : throw new UsageException("--points must be between 1 and 10000000");
+            var share = parse.GetValue(near) is >= 0 and <= 1 ? parse.GetValue(near) : throw new UsageException("--near-share must be in [0, 1]");
+            using var store = atlas.Open(parse);
+            var snapshot = atlas.Load(parse, store);
+            var resolver = Atlas.Resolve.AtlasResolver.Create(store, snapshot);
+            var report = ResolveBenchmark.Run(resolver, snapshot, n, share, (ulong)Math.Max(0, parse.GetValue(seed)));
+            JsonOutput.Write(output, writer =>
+            {
+                writer.WriteStartObject();
+                MachineDescription.Write(writer);
+                writer.WriteString("family", snapshot.Family.Name);
+                writer.WriteNumber("atlasVersion", snapshot.Version.Version);
+                writer.WriteNumber("samples", snapshot.Samples.Count);
+                writer.WriteNumber("rootCount", report.RootCount);
+                writer.WriteNumber("points", report.Points);
+                writer.WriteNumber("nearShare", share);
+                writer.WriteNumber("resolveMeanUs", Math.Round(report.ResolveMean, 2));
+                writer.WriteNumber("resolveP99Us", Math.Round(report.ResolveP99, 2));
+                writer.WriteNumber("fullMeanUs", Math.Round(report.FullMean, 2));
+                writer.WriteNumber("fullP99Us", Math.Round(report.FullP99, 2));
+                writer.WriteNumber("speedup", Math.Round(report.FullMean / report.ResolveMean, 2));
+                writer.WriteNumber("fallbackRate", report.FallbackRate);
+                writer.WriteNumber("agreement", report.Agreement);
+                writer.WriteNumber("meanRealCount", Math.Round(report.MeanRealCount, 3));
+                writer.WriteEndObject();
+            });
+            return CommandLine.Success;
+        });
         return command;
     }
 

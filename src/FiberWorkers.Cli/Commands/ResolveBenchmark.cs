@@ -1,0 +1,104 @@
+using System.Diagnostics;
+using System.Numerics;
+using FiberWorkers.Atlas.Resolve;
+using FiberWorkers.Atlas.Stores;
+using FiberWorkers.Contracts.V1;
+using FiberWorkers.Solving.Randomness;
+
+namespace FiberWorkers.Cli.Commands;
+
+/// <summary>Times real-only resolves against full solves on the same random points, and checks they agree.</summary>
+internal static class ResolveBenchmark
+{
+    public sealed record Report(int Points, double ResolveMean, double ResolveP99, double FullMean, double FullP99, double FallbackRate, double Agreement, double MeanRealCount, int RootCount);
+
+    public static Report Run(Resolver resolver, AtlasSnapshot snapshot, int count, double nearShare, ulong seed)
+    {
+        var random = new SeededRandom(seed);
+        var box = snapshot.Family.Parameters;
+        var folds = snapshot.Crossings.Where(c => c.Crossing.Kind == CrossingKind.Fold).Select(c => c.Crossing).ToArray();
+        var points = new double[count][];
+        for (var i = 0; i < count; i++)
+        {
+            var point = new double[box.Count];
+            if (folds.Length > 0 && random.NextDouble() < nearShare)
+            {
+                // Near the locus: a stored fold moved by about a thousandth of the box, clamped inside.
+                var fold = folds[random.NextInt(folds.Length)];
+                for (var k = 0; k < box.Count; k++)
+                {
+                    point[k] = Math.Clamp(fold.Point[k] + (1e-3 * box[k].Width * random.NextGaussian()), box[k].Low, box[k].High);
+                }
+            }
+            else
+            {
+                for (var k = 0; k < box.Count; k++)
+                {
+                    point[k] = random.NextDouble(box[k].Low, box[k].High);
+                }
+            }
+
+            points[i] = point;
+        }
+
+        foreach (var warm in points.Take(Math.Min(20, count)))
+        {
+            resolver.Ask(warm);
+            resolver.SolveFull(warm);
+        }
+
+        var resolveTimes = new double[count];
+        var fullTimes = new double[count];
+        var fallbacks = 0;
+        var agree = 0;
+        var realCounts = 0L;
+        var rootCount = 0;
+        var clock = new Stopwatch();
+        for (var i = 0; i < count; i++)
+        {
+            clock.Restart();
+            var answer = resolver.Ask(points[i]);
+            resolveTimes[i] = clock.Elapsed.TotalMicroseconds;
+            clock.Restart();
+            var full = resolver.SolveFull(points[i]);
+            fullTimes[i] = clock.Elapsed.TotalMicroseconds;
+            rootCount = full.RootCount;
+            fallbacks += answer.Method == "full" ? 1 : 0;
+            realCounts += full.RealCount;
+            var real = full.RealSolutions.ToArray();
+            var same = real.Length == answer.RealCount
+                && answer.Solutions.All(s => real.Any(r => Close(r.Values, s.Values)));
+            agree += same ? 1 : 0;
+        }
+
+        return new Report(
+            count,
+            resolveTimes.Average(),
+            Percentile(resolveTimes, 0.99),
+            fullTimes.Average(),
+            Percentile(fullTimes, 0.99),
+            (double)fallbacks / count,
+            (double)agree / count,
+            (double)realCounts / count,
+            rootCount);
+    }
+
+    private static bool Close(Complex[] a, Complex[] b)
+    {
+        var scale = 1.0;
+        var distance = 0.0;
+        for (var i = 0; i < a.Length; i++)
+        {
+            distance = Math.Max(distance, (a[i] - b[i]).Magnitude);
+            scale = Math.Max(scale, a[i].Magnitude);
+        }
+
+        return distance <= 1e-9 * scale;
+    }
+
+    private static double Percentile(double[] values, double quantile)
+    {
+        var sorted = values.Order().ToArray();
+        return sorted[Math.Min(sorted.Length - 1, (int)Math.Ceiling(quantile * sorted.Length) - 1)];
+    }
+}
