@@ -15,6 +15,18 @@ public sealed record ResolveOptions
     /// </summary>
     public double CrossingReach { get; init; } = 0.02;
 
+    /// <summary>
+    /// The fast path needs this many nearest samples to agree on the count: a query where the atlas's labels are
+    /// mixed lies near the locus, where real-only tracking is blind to pairs turning real. Default 8.
+    /// </summary>
+    public int Unanimity { get; init; } = 8;
+
+    /// <summary>
+    /// The query may be at most this fraction of the start sample's distance to its nearest stored crossing away
+    /// from it. Default 0.5.
+    /// </summary>
+    public double CrossingMargin { get; init; } = 0.5;
+
     /// <summary>Also solve in full and compare (the answer keeps the full solve's solutions). Default false.</summary>
     public bool VerifyFull { get; init; }
 }

@@ -14,10 +14,11 @@ namespace FiberWorkers.Atlas.Resolve;
 /// Answers point queries from an atlas by tracking only the real solutions of the nearest solved sample p* along the
 /// real segment p* → p, then certifying each endpoint (approximate zero, distinct, real). The answer is accepted only
 /// when every path ends regular and certified real, the count equals the classifier's label at p and the label of p*,
-/// and no stored crossing of the locus lies between p* and p. Otherwise the next nearest samples are tried, then the
-/// parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair of complex solutions
-/// turning real between p* and p (real-only tracking never carries them); the label and crossing checks guard against
-/// it only as far as the atlas has sampled that part of the locus.
+/// the nearest samples around p agree on that count, p is nearer to p* than half of p*'s distance to its nearest
+/// stored crossing, and no stored crossing of the locus lies between p* and p. Otherwise the next nearest samples are
+/// tried, then the parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair of
+/// complex solutions turning real between p* and p (real-only tracking never carries them); the label, unanimity and
+/// crossing checks guard against it only as far as the atlas has sampled that part of the locus.
 /// </summary>
 public sealed class Resolver
 {
@@ -56,6 +57,13 @@ public sealed class Resolver
         _crossingTree = withNormals.Length > 0 ? new KdTree(_crossingPoints, _samples.Dimension) : null;
     }
 
+    /// <summary>
+    /// Queries track over short distances (the nearest sample is close): a first step of half the segment and no cap
+    /// on the step let most paths finish in one or two steps; the corrector's contraction bound still guards each step.
+    /// </summary>
+    private static readonly Solving.Tracking.TrackerOptions ShortSegment =
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 0.5, MaxStepSize = 1.0 };
+
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
 
@@ -86,12 +94,25 @@ public sealed class Resolver
             return Full(target, predicted, outside: true, [], 0);
         }
 
-        Span<int> candidates = stackalloc int[Math.Clamp(_options.Attempts, 1, 16)];
-        Span<double> distances = stackalloc double[candidates.Length];
+        var neighbourhood = Math.Clamp(Math.Max(_options.Attempts, _options.Unanimity), 1, 64);
+        Span<int> candidates = stackalloc int[neighbourhood];
+        Span<double> distances = stackalloc double[neighbourhood];
         var found = _nearest.Nearest(normalized, candidates, distances);
         var rejections = new List<string>();
         var paths = 0;
-        for (var attempt = 0; attempt < found; attempt++)
+        var agreeing = Math.Min(found, _options.Unanimity);
+        for (var i = 0; i < agreeing; i++)
+        {
+            if (_samples.Labels[candidates[i]] != predicted)
+            {
+                rejections.Add(string.Create(
+                    CultureInfo.InvariantCulture,
+                    $"the {agreeing} nearest samples do not agree on {predicted} real solutions (one has {_samples.Labels[candidates[i]]}): the point is near the locus"));
+                return Full(target, predicted, outside: false, rejections, 0);
+            }
+        }
+
+        for (var attempt = 0; attempt < Math.Min(found, _options.Attempts); attempt++)
         {
             var index = candidates[attempt];
             var sample = _samples.Samples[index];
@@ -102,7 +123,17 @@ public sealed class Resolver
                 continue;
             }
 
-            if (CrossingBetween(_samples.Points.AsSpan(index * dimension, dimension), normalized) is { } crossing)
+            var start = _samples.Points.AsSpan(index * dimension, dimension);
+            var clearance = NearestCrossingDistance(start);
+            if (Math.Sqrt(distances[attempt]) > _options.CrossingMargin * clearance)
+            {
+                rejections.Add(string.Create(
+                    CultureInfo.InvariantCulture,
+                    $"{name}: the point is {Math.Sqrt(distances[attempt]):G3} away, more than {_options.CrossingMargin} of its distance {clearance:G3} to the nearest stored crossing"));
+                continue;
+            }
+
+            if (CrossingBetween(start, normalized) is { } crossing)
             {
                 rejections.Add($"{name}: a stored crossing lies between it and the point ({crossing})");
                 continue;
@@ -110,7 +141,7 @@ public sealed class Resolver
 
             var solutions = Solutions(sample);
             paths += solutions.Count;
-            var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions);
+            var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);
             if (!tracked.AllRegular)
             {
                 var failure = tracked.Paths.First(p => p.Status != PathStatus.Regular).Failure;
@@ -221,6 +252,10 @@ public sealed class Resolver
 
         return null;
     }
+
+    /// <summary>Distance (box-normalized) from a point to the nearest stored crossing; ∞ without crossings.</summary>
+    private double NearestCrossingDistance(ReadOnlySpan<double> point) =>
+        _crossingTree is null ? double.PositiveInfinity : Math.Sqrt(_crossingTree.Nearest(point).SquaredDistance);
 
     private static double DistanceToSegment(ReadOnlySpan<double> point, ReadOnlySpan<double> a, ReadOnlySpan<double> b)
     {

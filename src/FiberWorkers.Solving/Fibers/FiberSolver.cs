@@ -146,17 +146,22 @@ public sealed class FiberSolver
     /// cannot be told apart from an end on a fold of the discriminant); paths that reach the same point are
     /// re-tracked tightly and otherwise marked as path jumping.
     /// </summary>
-    public SegmentResult TrackSegment(ReadOnlySpan<Complex> from, ReadOnlySpan<Complex> to, IReadOnlyList<Complex[]> solutions)
+    /// <param name="from">The segment's start, where <paramref name="solutions"/> solve the system.</param>
+    /// <param name="to">The segment's end.</param>
+    /// <param name="solutions">Solutions at <paramref name="from"/> (refined by a Newton step first).</param>
+    /// <param name="tracker">Tracker settings for this segment (default: the solver's); short segments can start with long steps.</param>
+    public SegmentResult TrackSegment(ReadOnlySpan<Complex> from, ReadOnlySpan<Complex> to, IReadOnlyList<Complex[]> solutions, TrackerOptions? tracker = null)
     {
         ArgumentNullException.ThrowIfNull(solutions);
         RequireParameters(from);
         RequireParameters(to);
         var homotopy = new ParameterHomotopy(_affine, null, from, to);
-        var tracker = new PathTracker(homotopy.CreateEvaluator());
+        var pathTracker = new PathTracker(homotopy.CreateEvaluator());
+        var settings = tracker ?? Options.Tracker;
         var results = new PathResult[solutions.Count];
         for (var i = 0; i < solutions.Count; i++)
         {
-            results[i] = TrackSegmentPath(tracker, i, solutions[i], Options.Tracker);
+            results[i] = TrackSegmentPath(pathTracker, i, solutions[i], settings);
         }
 
         // Two paths ending together on a real segment means one jumped (regular solutions have one path each).
@@ -167,8 +172,8 @@ public sealed class FiberSolver
                 if (results[i].Status == PathStatus.Regular && results[j].Status == PathStatus.Regular
                     && Close(results[i].Endpoint!, results[j].Endpoint!, Options.DuplicateTolerance))
                 {
-                    results[i] = TrackSegmentPath(tracker, i, solutions[i], TrackerOptions.Tight) with { Retracked = true };
-                    results[j] = TrackSegmentPath(tracker, j, solutions[j], TrackerOptions.Tight) with { Retracked = true };
+                    results[i] = TrackSegmentPath(pathTracker, i, solutions[i], TrackerOptions.Tight) with { Retracked = true };
+                    results[j] = TrackSegmentPath(pathTracker, j, solutions[j], TrackerOptions.Tight) with { Retracked = true };
                     if (results[i].Status == PathStatus.Regular && results[j].Status == PathStatus.Regular
                         && Close(results[i].Endpoint!, results[j].Endpoint!, Options.DuplicateTolerance))
                     {
@@ -225,7 +230,7 @@ public sealed class FiberSolver
     private PathResult TrackSegmentPath(PathTracker tracker, int index, Complex[] start, TrackerOptions options)
     {
         var x = (Complex[])start.Clone();
-        tracker.Refine(x, 0, 3, 1e-15);
+        tracker.Refine(x, 0, 2, 1e-15);
         var outcome = tracker.Track(x, 0, 1, options);
         if (!outcome.Completed)
         {
