@@ -199,12 +199,20 @@ public sealed class SqliteAtlasStore : IAtlasStore
                 throw new InvalidOperationException($"sweep {sweepId} is already committed");
             }
 
+            // Grid tiles (keys L<level>:...) are shared with the parent only when its grid came from the same sweep
+            // options: under other options a key names another region (other divisions) or other content (every tile
+            // records its options), and the version's content hash is taken under this sweep's options. Tiles of
+            // derived versions (learned samples) are shared either way.
             var tiles = new SortedDictionary<string, string>(StringComparer.Ordinal);
             if (sweep.Parent is { } parent)
             {
+                var sameGrid = SweepOptionsOfUnlocked(sweep.Atlas, parent) == sweep.Options;
                 foreach (var (key, hash) in VersionTilesUnlocked(sweep.Atlas, parent))
                 {
-                    tiles[key] = hash;
+                    if (sameGrid || !IsGridKey(key))
+                    {
+                        tiles[key] = hash;
+                    }
                 }
             }
 
@@ -264,13 +272,21 @@ public sealed class SqliteAtlasStore : IAtlasStore
                 tiles[key] = hash;
             }
 
+            // Added tiles go in first (content-addressed, so a failed commit leaves only an unused tile), so that the
+            // description can read them like any other tile of the version.
+            using (var tileTransaction = _connection.BeginTransaction())
+            {
+                foreach (var (_, hash, payload) in addedTiles)
+                {
+                    Execute("INSERT OR IGNORE INTO tiles (tile_hash, payload) VALUES ($h, $p)", tileTransaction, ("$h", hash), ("$p", payload));
+                }
+
+                tileTransaction.Commit();
+            }
+
             var (contentHash, summary) = describe(tiles);
             using var transaction = _connection.BeginTransaction();
             var version = Query("SELECT COALESCE(MAX(version), 0) + 1 FROM versions WHERE atlas_id = $a", r => r.GetInt32(0), transaction, ("$a", atlasId))[0];
-            foreach (var (_, hash, payload) in addedTiles)
-            {
-                Execute("INSERT OR IGNORE INTO tiles (tile_hash, payload) VALUES ($h, $p)", transaction, ("$h", hash), ("$p", payload));
-            }
 
             if (blob is { } extra)
             {
@@ -367,9 +383,8 @@ public sealed class SqliteAtlasStore : IAtlasStore
 
     private void Prepare()
     {
-        Execute("PRAGMA journal_mode = WAL");
-        Execute("PRAGMA synchronous = NORMAL");
-        Execute("PRAGMA foreign_keys = ON");
+        // Identify the file before changing anything: switching to WAL rewrites the database header, and a file of
+        // another application must be refused as it was found.
         var applicationId = Query("PRAGMA application_id", r => r.GetInt32(0))[0];
         var userVersion = Query("PRAGMA user_version", r => r.GetInt32(0))[0];
         var tables = Query("SELECT COUNT(*) FROM sqlite_master WHERE type = 'table'", r => r.GetInt32(0))[0];
@@ -382,6 +397,10 @@ public sealed class SqliteAtlasStore : IAtlasStore
         {
             throw new InputException(_source, string.Empty, $"atlas schema version {userVersion} is newer than this build reads ({SchemaVersion}); upgrade fiber");
         }
+
+        Execute("PRAGMA journal_mode = WAL");
+        Execute("PRAGMA synchronous = NORMAL");
+        Execute("PRAGMA foreign_keys = ON");
 
         for (var version = userVersion; version < SchemaVersion; version++)
         {
@@ -398,6 +417,36 @@ public sealed class SqliteAtlasStore : IAtlasStore
         var rows = Query("SELECT family_hash, family_json FROM atlases WHERE atlas_id = $a", r => (r.GetString(0), r.GetString(1)), ("$a", atlasId));
         return rows.Count == 0 ? null : rows[0];
     }
+
+    /// <summary>The options of the sweep behind a version: its own, or its nearest sweep ancestor's for derived versions.</summary>
+    private string? SweepOptionsOfUnlocked(string atlasId, int version)
+    {
+        int? current = version;
+        while (current is { } number)
+        {
+            var rows = Query(
+                "SELECT kind, options_text, parent FROM versions WHERE atlas_id = $a AND version = $v",
+                r => (Kind: r.GetString(0), Options: r.GetString(1), Parent: r.IsDBNull(2) ? (int?)null : r.GetInt32(2)),
+                ("$a", atlasId),
+                ("$v", number));
+            if (rows.Count == 0)
+            {
+                return null;
+            }
+
+            if (rows[0].Kind == "sweep")
+            {
+                return rows[0].Options;
+            }
+
+            current = rows[0].Parent < number ? rows[0].Parent : null;
+        }
+
+        return null;
+    }
+
+    /// <summary>True for the keys of grid tiles (<c>L2:5,3</c>), false for derived tiles such as <c>learned:v4</c>.</summary>
+    private static bool IsGridKey(string key) => key.Length > 1 && key[0] == 'L' && char.IsAsciiDigit(key[1]);
 
     private Dictionary<string, string> VersionTilesUnlocked(string atlasId, int version) =>
         Query(

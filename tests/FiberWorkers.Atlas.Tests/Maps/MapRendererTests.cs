@@ -178,7 +178,7 @@ public sealed class MapRendererTests
         Assert.Contains("a map needs two parameters; this family has 1 (a)", error.Message, StringComparison.Ordinal);
     }
 
-    private static MapImage Render(Stores.AtlasSnapshot snapshot, (string Name, double Value) fix) =>
+    private static MapImage Render(FiberWorkers.Atlas.Stores.AtlasSnapshot snapshot, (string Name, double Value) fix) =>
         MapRenderer.Render(snapshot, new MapOptions { Fixed = new Dictionary<string, double> { [fix.Name] = fix.Value }, Width = 400, Height = 300 });
 
     /// <summary>The most frequent color within 3 pixels of a slice point (markers and grid lines are thin).</summary>
@@ -188,7 +188,7 @@ public sealed class MapRendererTests
         return png.Dominant((int)Math.Round(column), (int)Math.Round(row), 3);
     }
 
-    private sealed class NormalizedDiscriminant : Learning.RegionClassifier
+    private sealed class NormalizedDiscriminant : FiberWorkers.Atlas.Learning.RegionClassifier
     {
         public override string Name => "normalized discriminant";
 

@@ -1,0 +1,94 @@
+using FiberWorkers.Atlas.Learning;
+
+namespace FiberWorkers.Atlas.Tests.Learning;
+
+public sealed class FeedforwardNetworkTests
+{
+    [Fact]
+    public void Backpropagated_gradients_match_central_finite_differences()
+    {
+        var random = new Random(3);
+        int[] sizes = [3, 5, 4, 3];
+        var parameters = Enumerable.Range(0, FeedforwardNetwork.ParameterCount(sizes)).Select(_ => random.NextDouble() - 0.5).ToArray();
+        var network = new FeedforwardNetwork(sizes, parameters, [0, 2, 4]);
+        var workspace = network.CreateWorkspace();
+        double[] input = [0.2, 0.7, 0.4];
+        const int target = 1;
+        var gradient = new double[parameters.Length];
+        NetworkTrainer.Backpropagate(network, input, target, workspace, gradient);
+        const double h = 1e-6;
+        for (var p = 0; p < parameters.Length; p++)
+        {
+            var saved = parameters[p];
+            parameters[p] = saved + h;
+            var plus = -Math.Log(network.Probabilities(input, workspace)[target]);
+            parameters[p] = saved - h;
+            var minus = -Math.Log(network.Probabilities(input, workspace)[target]);
+            parameters[p] = saved;
+            var numeric = (plus - minus) / (2 * h);
+            Assert.True(Math.Abs(numeric - gradient[p]) <= 1e-7 + (1e-5 * Math.Abs(numeric)), $"parameter {p}: backpropagation {gradient[p]}, finite difference {numeric}");
+        }
+    }
+
+    [Fact]
+    public void The_network_learns_the_sign_of_the_cubic_discriminant_from_exact_labels()
+    {
+        // x³ + bx + c has three real roots where 4b³ + 27c² < 0, one where it is positive (any algebra text).
+        var random = new Random(11);
+        var (inputs, labels) = CubicSamples(random, 6000);
+        var (network, history) = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [32, 32], Epochs = 150, Seed = 4 });
+        Assert.True(history.Count >= 10);
+        var (test, truth) = CubicSamples(random, 10_000);
+        var workspace = network.CreateWorkspace();
+        var correct = 0;
+        for (var i = 0; i < truth.Length; i++)
+        {
+            correct += network.Classify(test.AsSpan(2 * i, 2), workspace) == truth[i] ? 1 : 0;
+        }
+
+        Assert.True(correct >= 0.995 * truth.Length, $"accuracy {(double)correct / truth.Length:P2}");
+    }
+
+    [Fact]
+    public void Training_is_deterministic_for_a_seed_on_any_number_of_threads()
+    {
+        var (inputs, labels) = CubicSamples(new Random(2), 800);
+        var one = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [8], Epochs = 20, Seed = 9, Threads = 1 }).Network;
+        var two = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [8], Epochs = 20, Seed = 9, Threads = 2 }).Network;
+        var other = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [8], Epochs = 20, Seed = 10, Threads = 2 }).Network;
+        Assert.Equal(one.Parameters, two.Parameters);
+        Assert.NotEqual(one.Parameters, other.Parameters);
+    }
+
+    [Fact]
+    public void A_stored_network_reads_back_identically_and_damaged_ones_are_refused()
+    {
+        var (inputs, labels) = CubicSamples(new Random(6), 300);
+        var network = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [6], Epochs = 5 }).Network;
+        var box = new[] { new Algebra.Families.ParameterBox("b", -3, 1), new Algebra.Families.ParameterBox("c", -2, 2) };
+        var model = new NetworkClassifier(network).ToModel(box, 1);
+        var again = NetworkClassifier.FromModel(Contracts.V1.ClassifierModel.Parser.ParseFrom(Google.Protobuf.MessageExtensions.ToByteArray(model)), "test");
+        Assert.Equal(network.Parameters, again.Network.Parameters);
+        model.Parameters.RemoveAt(0);
+        Assert.Throws<Algebra.Families.InputException>(() => NetworkClassifier.FromModel(model, "test"));
+        model.FormatVersion = 99;
+        var error = Assert.Throws<Algebra.Families.InputException>(() => NetworkClassifier.FromModel(model, "test"));
+        Assert.Contains("format version 99", error.Message, StringComparison.Ordinal);
+    }
+
+    private static (double[] Inputs, int[] Labels) CubicSamples(Random random, int count)
+    {
+        var inputs = new double[2 * count];
+        var labels = new int[count];
+        for (var i = 0; i < count; i++)
+        {
+            var (u, v) = (random.NextDouble(), random.NextDouble());
+            var (b, c) = (-3 + (4 * u), -2 + (4 * v));
+            inputs[2 * i] = u;
+            inputs[(2 * i) + 1] = v;
+            labels[i] = (4 * b * b * b) + (27 * c * c) < 0 ? 3 : 1;
+        }
+
+        return (inputs, labels);
+    }
+}

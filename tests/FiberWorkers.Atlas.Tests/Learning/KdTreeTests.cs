@@ -1,0 +1,105 @@
+using CsCheck;
+using FiberWorkers.Atlas.Learning;
+
+namespace FiberWorkers.Atlas.Tests.Learning;
+
+public sealed class KdTreeTests
+{
+    [Fact]
+    public void Nearest_neighbours_agree_with_brute_force_in_dimensions_one_to_six_with_duplicates_and_points_on_splits()
+    {
+        // Coordinates on a coarse grid make many duplicates and many points exactly on split planes.
+        Gen.Int[1, 6].SelectMany(d => Gen.Int[1, 400].Select(n => (d, n))).SelectMany(s => Gen.Int[0, int.MaxValue].Select(seed => (s.d, s.n, seed)))
+            .Sample(
+                sample =>
+                {
+                    var (dimension, count, seed) = sample;
+                    var random = new Random(seed);
+                    var points = new double[count * dimension];
+                    for (var i = 0; i < points.Length; i++)
+                    {
+                        points[i] = Math.Round(random.NextDouble() * 8) / 8;
+                    }
+
+                    var tree = new KdTree(points, dimension);
+                    var query = new double[dimension];
+                    for (var q = 0; q < 20; q++)
+                    {
+                        for (var k = 0; k < dimension; k++)
+                        {
+                            query[k] = random.NextDouble() < 0.3 ? Math.Round(random.NextDouble() * 8) / 8 : random.NextDouble();
+                        }
+
+                        var fast = tree.Nearest(query);
+                        var slow = tree.NearestByScan(query);
+                        Assert.Equal(slow.SquaredDistance, fast.SquaredDistance);
+                        // Ties go to the smaller index, the scan's rule too.
+                        Assert.Equal(slow.Index, fast.Index);
+                    }
+                },
+                iter: 300,
+                seed: "7Yf2V0dRzC0b");
+    }
+
+    [Fact]
+    public void K_nearest_are_the_k_smallest_distances_in_order()
+    {
+        var random = new Random(5);
+        const int dimension = 3;
+        var points = new double[500 * dimension];
+        for (var i = 0; i < points.Length; i++)
+        {
+            points[i] = random.NextDouble();
+        }
+
+        var tree = new KdTree(points, dimension);
+        Span<int> indices = stackalloc int[7];
+        Span<double> distances = stackalloc double[7];
+        for (var q = 0; q < 50; q++)
+        {
+            double[] query = [random.NextDouble(), random.NextDouble(), random.NextDouble()];
+            var found = tree.Nearest(query, indices, distances);
+            Assert.Equal(7, found);
+            var expected = Enumerable.Range(0, 500)
+                .Select(i => (Index: i, Distance: Enumerable.Range(0, dimension).Sum(k => Math.Pow(query[k] - points[(i * dimension) + k], 2))))
+                .OrderBy(p => p.Distance).ThenBy(p => p.Index).Take(7).ToArray();
+            for (var i = 0; i < 7; i++)
+            {
+                Assert.Equal(expected[i].Index, indices[i]);
+                Assert.Equal(expected[i].Distance, distances[i], 12);
+            }
+        }
+    }
+
+    [Fact]
+    public void Queries_allocate_nothing()
+    {
+        var random = new Random(9);
+        var points = new double[10_000 * 3];
+        for (var i = 0; i < points.Length; i++)
+        {
+            points[i] = random.NextDouble();
+        }
+
+        var tree = new KdTree(points, 3);
+        double[] query = [0.3, 0.6, 0.1];
+        tree.Nearest(query);
+        var before = GC.GetAllocatedBytesForCurrentThread();
+        var sum = 0;
+        for (var i = 0; i < 10_000; i++)
+        {
+            query[0] = i / 10_000.0;
+            sum += tree.Nearest(query).Index;
+        }
+
+        Assert.Equal(0, GC.GetAllocatedBytesForCurrentThread() - before);
+        Assert.True(sum >= 0);
+    }
+
+    [Fact]
+    public void Non_finite_points_are_refused()
+    {
+        Assert.Throws<ArgumentException>(() => new KdTree([0.1, double.NaN], 2));
+        Assert.Throws<ArgumentException>(() => new KdTree([0.1, 0.2, 0.3], 2));
+    }
+}

@@ -1,0 +1,106 @@
+using System.Numerics;
+using FiberWorkers.Atlas.Resolve;
+using FiberWorkers.Atlas.Stores;
+using FiberWorkers.Atlas.Sweeps;
+using FiberWorkers.Atlas.Tests.Support;
+using FiberWorkers.Contracts.V1;
+using FiberWorkers.Testing;
+
+namespace FiberWorkers.Atlas.Tests.Resolve;
+
+public sealed class ResolverTests
+{
+    public static TheoryData<string, int, int> Families => new()
+    {
+        { "cubic", 6, 8 },
+        { "two-link-arm", 6, 6 },
+        { "microgrid3", 5, 5 },
+    };
+
+    [Theory]
+    [MemberData(nameof(Families))]
+    public void Resolve_answers_equal_full_solve_answers_at_500_points_including_near_boundary_ones(string example, int tiles, int lines)
+    {
+        using var atlas = new TempAtlas(example);
+        using var store = atlas.Open();
+        var family = TestFamilies.Example(example);
+        new SweepRunner(store).Run(family, new SweepOptions { Divisions = [tiles, tiles], LinesPerTile = lines, MaxDegreeOfParallelism = 2 });
+        var snapshot = AtlasSnapshot.Load(store, $"{example}.db");
+        var resolver = AtlasResolver.Create(store, snapshot);
+        var random = new Random(example.Length * 131);
+        var folds = snapshot.Crossings.Where(c => c.Crossing.Kind == CrossingKind.Fold).Select(c => c.Crossing).ToArray();
+        Assert.NotEmpty(folds);
+        var fast = 0;
+        for (var i = 0; i < 500; i++)
+        {
+            var point = new double[2];
+            var nearBoundary = i % 3 == 0;
+            for (var k = 0; k < 2; k++)
+            {
+                var p = family.Parameters[k];
+                point[k] = nearBoundary
+                    ? Math.Clamp(folds[random.Next(folds.Length)].Point[k] + (2e-3 * p.Width * (random.NextDouble() - 0.5)), p.Low, p.High)
+                    : p.Low + (p.Width * random.NextDouble());
+            }
+
+            var answer = resolver.Ask(point);
+            var full = resolver.SolveFull(point);
+            fast += answer.Method == "real-track" ? 1 : 0;
+            var real = full.RealSolutions.ToArray();
+            Assert.True(answer.RealCount == real.Length, $"{example} at ({point[0]}, {point[1]}): {answer.Method} gave {answer.RealCount}, the full solve {real.Length}");
+            foreach (var solution in answer.Solutions)
+            {
+                Assert.Contains(real, r => Distance(r.Values, solution.Values) <= 1e-9 * (1 + Norm(r.Values)));
+            }
+        }
+
+        // The fast path must actually be taken for most points away from the locus.
+        Assert.True(fast >= 150, $"{example}: only {fast} of 500 answered by real-only tracking");
+    }
+
+    [Fact]
+    public void A_query_whose_nearest_sample_lies_across_a_crossing_does_not_get_a_wrong_count()
+    {
+        // A sparse cubic atlas: queries just across the locus from a sample often have that sample as their nearest.
+        // Whatever path answers, the count must follow the discriminant rule (4b³ + 27c² < 0 ⇔ 3 real roots).
+        using var atlas = new TempAtlas("across");
+        using var store = atlas.Open();
+        var family = TestFamilies.Example("cubic");
+        new SweepRunner(store).Run(family, new SweepOptions { Divisions = [3, 3], LinesPerTile = 2, MaxDegreeOfParallelism = 2 });
+        var snapshot = AtlasSnapshot.Load(store, "across.db");
+        var resolver = AtlasResolver.Create(store, snapshot);
+        var random = new Random(17);
+        var across = 0;
+        foreach (var (_, sample) in snapshot.Samples)
+        {
+            // Walk from the sample towards and just past the locus along c (the discriminant is quadratic in c).
+            var b = sample.Point[0];
+            if (b >= -0.05)
+            {
+                continue;
+            }
+
+            var edge = Math.Sqrt(-4 * b * b * b / 27);
+            foreach (var sign in new[] { -1.0, 1.0 })
+            {
+                var c = (sign * edge) + (sample.Label == 3 ? sign : -sign) * 1e-3 * (1 + random.NextDouble());
+                if (Math.Abs(c) > 2)
+                {
+                    continue;
+                }
+
+                var truth = (4 * b * b * b) + (27 * c * c) < 0 ? 3 : 1;
+                var answer = resolver.Ask([b, c]);
+                across += answer.PredictedLabel != truth ? 1 : 0;
+                Assert.True(answer.RealCount == truth, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says {truth}");
+            }
+        }
+
+        // The construction must really have produced queries whose nearest sample is on the other side.
+        Assert.True(across > 0, "no query had its nearest sample across the locus");
+    }
+
+    private static double Distance(Complex[] a, Complex[] b) => a.Zip(b).Max(z => (z.First - z.Second).Magnitude);
+
+    private static double Norm(Complex[] a) => a.Max(v => v.Magnitude);
+}
