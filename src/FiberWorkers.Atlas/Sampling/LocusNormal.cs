@@ -33,7 +33,9 @@ internal static class LocusNormal
         var parameterJacobian = new Complex[n * m];
         system.Evaluate(x, p, values, jacobian, parameterJacobian, system.CreateWorkspace());
         var matrix = Matrix<double>.Build.Dense(n, n, (i, j) => jacobian[(i * n) + j].Real);
-        var svd = matrix.Transpose().Svd(computeVectors: true);
+        // ∂F/∂x = U·S·Vᵀ: the left singular vector of the smallest singular value (last column of U) is w. (The SVD
+        // of the transpose would give V instead, the right null vector, which differs unless ∂F/∂x is symmetric.)
+        var svd = matrix.Svd(computeVectors: true);
 
         // A simple fold has one vanishing singular value, well separated from the next.
         var singular = svd.S;

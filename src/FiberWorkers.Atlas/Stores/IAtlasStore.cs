@@ -28,7 +28,8 @@ public interface IAtlasStore : IDisposable
     void PutTile(long sweepId, string tileKey, string tileHash, byte[] payload);
 
     /// <summary>
-    /// Commits the sweep as a new version whose tiles are the parent's, overridden by the sweep's; returns the version.
+    /// Commits the sweep as a new version: the sweep's tiles plus the parent's untouched ones (its grid tiles only when
+    /// they came from the same sweep options, derived tiles such as learned samples always); returns the version.
     /// </summary>
     int CommitSweep(long sweepId, string kind, Func<IReadOnlyDictionary<string, string>, (string ContentHash, string Summary)> describe);
 

@@ -16,7 +16,7 @@ public readonly record struct TileKey(int Level, int[] Coordinates) : IComparabl
         ArgumentNullException.ThrowIfNull(text);
         var colon = text.IndexOf(':', StringComparison.Ordinal);
         if (text.Length < 4 || text[0] != 'L' || colon < 2
-            || !int.TryParse(text.AsSpan(1, colon - 1), NumberStyles.None, CultureInfo.InvariantCulture, out var level)
+            || !TryParseCanonical(text.AsSpan(1, colon - 1), out var level)
             || level > 30)
         {
             throw new FormatException($"'{text}' is not a tile key (expected L<level>:<i>,<j>,...)");
@@ -26,13 +26,24 @@ public readonly record struct TileKey(int Level, int[] Coordinates) : IComparabl
         var coordinates = new int[parts.Length];
         for (var k = 0; k < parts.Length; k++)
         {
-            if (!int.TryParse(parts[k], NumberStyles.None, CultureInfo.InvariantCulture, out coordinates[k]))
+            if (!TryParseCanonical(parts[k], out coordinates[k]))
             {
-                throw new FormatException($"'{text}' is not a tile key (coordinate {k + 1} is not a non-negative integer)");
+                throw new FormatException($"'{text}' is not a tile key (coordinate {k + 1} is not a non-negative integer without leading zeros)");
             }
         }
 
         return new TileKey(level, coordinates);
+    }
+
+    /// <summary>
+    /// A non-negative integer as <see cref="ToString"/> writes it: a key's text is its identity in the store, so
+    /// "L0:01" must not be a second name for "L0:1".
+    /// </summary>
+    private static bool TryParseCanonical(ReadOnlySpan<char> digits, out int value)
+    {
+        value = 0;
+        return !(digits.Length > 1 && digits[0] == '0')
+            && int.TryParse(digits, NumberStyles.None, CultureInfo.InvariantCulture, out value);
     }
 
     /// <summary>The 2^m children one level down.</summary>
@@ -61,7 +72,9 @@ public readonly record struct TileKey(int Level, int[] Coordinates) : IComparabl
         {
             var cells = (double)divisions[k] * (1L << Level);
             low[k] = box[k].Low + (box[k].Width * Coordinates[k] / cells);
-            high[k] = box[k].Low + (box[k].Width * (Coordinates[k] + 1) / cells);
+
+            // Low + Width·cells/cells can miss High by an ulp; the grid's outer edges are the box's own.
+            high[k] = Coordinates[k] + 1 == cells ? box[k].High : box[k].Low + (box[k].Width * (Coordinates[k] + 1) / cells);
         }
 
         return (low, high);
