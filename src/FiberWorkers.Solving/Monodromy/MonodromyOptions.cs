@@ -6,7 +6,10 @@ public sealed record MonodromyOptions
     /// <summary>The defaults.</summary>
     public static MonodromyOptions Default { get; } = new();
 
-    /// <summary>Stop after this many loops in a row have found no new solution. Default 4.</summary>
+    /// <summary>
+    /// Stop after this many loops in a row have found no new solution (four times as many while the trace test
+    /// fails). Default 4.
+    /// </summary>
     public int StallLoops { get; init; } = 4;
 
     /// <summary>Most loops in all. Default 200.</summary>

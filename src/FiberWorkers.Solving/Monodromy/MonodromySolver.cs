@@ -16,8 +16,9 @@ namespace FiberWorkers.Solving.Monodromy;
 /// through random complex parameter points) and keep every new endpoint, until the known set is closed under the
 /// loops and a number of further loops add nothing. A family that cannot place x₀ in a fiber by choosing its own
 /// parameters gets auxiliary parameters q on the constant terms, F(x; p) + q with q₀ = −F(x₀; p₀); the fiber at
-/// q = 0 is then reached by one parameter homotopy with endgame. Batches of loop tracks run in parallel; results
-/// are merged in a fixed order, so a seed gives the same fiber on any number of threads.
+/// q = 0 is then reached by one parameter homotopy with endgame (and a detour through a random point when paths
+/// of it fail). Batches of loop tracks run in parallel; results are merged in a fixed order, so a seed gives the
+/// same fiber on any number of threads.
 /// </summary>
 internal sealed class MonodromySolver
 {
@@ -62,12 +63,16 @@ internal sealed class MonodromySolver
         var trace = (TraceTestResult?)null;
         var skipped = (string?)null;
         var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
-        // A failed trace test is the only warning that solutions may be missing, so it doubles the stall loops
-        // needed before the stopping rule may end the search.
+        // A failed trace test is the only warning that solutions may be missing, so it quadruples the stall loops
+        // needed before the stopping rule may end the search. Some base points have loops that mix the missing
+        // solutions with the known ones only now and then: in a sixth to under half of the loops, for five-bus
+        // microgrid fibers missing a group of 5 to 10 large solutions and for two-link-arm fibers missing one of
+        // their two. With twice the stall loops about one microgrid fiber in 90 and one arm fiber in 30 stopped
+        // short (600 seeds each); with four times, one microgrid fiber in 300 and one arm fiber in 1,200.
         while (loops.Count < _options.MaxLoops && !(solutions.Count >= expected)
-            && stall < (trace is { Passed: false } ? 2 * _options.StallLoops : _options.StallLoops))
+            && stall < (trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops))
         {
-            loops.Add(NewLoop(basis, random));
+            loops.Add(NewLoop(basis, random, LoopSpread(stall)));
             var before = solutions.Count;
             for (var s = 0; s < solutions.Count; s++)
             {
@@ -115,7 +120,7 @@ internal sealed class MonodromySolver
         }
 
         // Bring the base fiber to the family itself at p₀ when it was augmented.
-        var (fiber, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, tracks);
+        var (fiber, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, tracks, random);
         var completeness = expected is { } count && fiber.Count >= count ? "expected-count"
             : trace is { Passed: true } ? "trace-test"
             : "stopping-rule";
@@ -149,10 +154,13 @@ internal sealed class MonodromySolver
         return (new StartFiber(familyHash, _system.Unknowns, parameters, fiber, provenance), report);
     }
 
+    /// <summary>How many times <see cref="MonodromyOptions.StallLoops"/> the search waits while the trace test fails.</summary>
+    internal const int TraceFailurePatience = 4;
+
     /// <summary>Loop endpoints of the same solution agree to about the tracker's accuracy; merge within this.</summary>
     private const double MergeTolerance = 1e-7;
 
-    private static (IReadOnlyList<Complex[]> Fiber, int FinalPaths) FiberAtBase(
+    private (IReadOnlyList<Complex[]> Fiber, int FinalPaths) FiberAtBase(
         FiberSolver solver,
         PolynomialSystem system,
         string familyHash,
@@ -160,7 +168,8 @@ internal sealed class MonodromySolver
         Complex[] basis,
         Complex[] parameters,
         List<Complex[]> solutions,
-        long tracks)
+        long tracks,
+        SeededRandom random)
     {
         // A start fiber needs completeness more than certificates: every distinct regular solution is kept, also
         // ill-conditioned ones that double precision cannot certify (dropping one would lose its paths forever).
@@ -169,12 +178,43 @@ internal sealed class MonodromySolver
             return ([.. solutions], 0);
         }
 
-        var start = new StartFiber(familyHash, system.Unknowns, basis, [.. solutions], new StartFiberProvenance("monodromy", 0, tracks, "stopping-rule", string.Empty));
         var target = new Complex[basis.Length];
         parameters.CopyTo(target, 0);
-        var atZero = solver.Solve(start, target);
-        return ([.. atZero.Solutions.Select(s => s.Values)], atZero.PathsTracked);
+        var atZero = solver.Solve(Fiber(familyHash, system, basis, solutions, tracks), target);
+        var fiber = atZero.Solutions.Select(s => s.Values).ToList();
+        var paths = atZero.PathsTracked;
+        var failures = atZero.StatusCounts[PathStatus.Failed];
+
+        // Paths of the straight segment to q = 0 fail in pairs where it passes within rounding of a branch point
+        // (two solutions meeting: step-size underflow at the same t, seen once in 150 five-bus fibers with equal
+        // lines). A detour through a random point misses it with probability one. The whole fiber takes the
+        // detour, not only the failed paths: the detour and the straight segment differ by a loop around that
+        // branch point, which may exchange the failed paths' ends with those of paths that arrived.
+        for (var attempt = 0; attempt < DetourAttempts && failures > 0; attempt++)
+        {
+            var detour = NewLoop(basis, random, 1)[0];
+            var there = solver.Solve(Fiber(familyHash, system, basis, solutions, tracks), detour);
+            var back = solver.Solve(Fiber(familyHash, system, detour, [.. there.Solutions.Select(s => s.Values)], tracks), target);
+            paths += there.PathsTracked + back.PathsTracked;
+            foreach (var point in back.Solutions)
+            {
+                if (!fiber.Any(known => Close(known, point.Values, _solve.DuplicateTolerance)))
+                {
+                    fiber.Add(point.Values);
+                }
+            }
+
+            failures = there.StatusCounts[PathStatus.Failed] + back.StatusCounts[PathStatus.Failed];
+        }
+
+        return (fiber, paths);
     }
+
+    /// <summary>Detours tried when paths of the final homotopy fail.</summary>
+    private const int DetourAttempts = 3;
+
+    private static StartFiber Fiber(string familyHash, PolynomialSystem system, Complex[] point, List<Complex[]> solutions, long tracks) =>
+        new(familyHash, system.Unknowns, point, solutions, new StartFiberProvenance("monodromy", 0, tracks, "stopping-rule", string.Empty));
 
     /// <summary>Loop endpoints for a batch, in batch order (null where a track failed).</summary>
     private Complex[]?[] TrackBatch(
@@ -205,10 +245,12 @@ internal sealed class MonodromySolver
         chart.Lift(start, x);
         var corners = new[] { basis, loop[0], loop[1], basis };
         PathTracker? tracker = null;
+        IHomotopy? evaluator = null;
         for (var edge = 0; edge < 3; edge++)
         {
             var homotopy = new ParameterHomotopy(projective, chart, corners[edge], corners[edge + 1]);
-            tracker = new PathTracker(homotopy.CreateEvaluator());
+            evaluator = homotopy.CreateEvaluator();
+            tracker = new PathTracker(evaluator);
             if (!tracker.Track(x, 0, 1, _solve.Tracker).Completed)
             {
                 return null;
@@ -216,10 +258,10 @@ internal sealed class MonodromySolver
         }
 
         // Refine in the chart, where solutions with large coordinates stay well scaled, and judge the point with
-        // the chart-independent condition number; only then leave the chart.
+        // a chart-independent, row-equilibrated condition number; only then leave the chart.
         tracker!.Refine(x, 1, 4, 1e-15);
         if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
-            || !(tracker.ProjectiveCondition(x, 1) <= _solve.Endgame.SingularConditionLimit))
+            || !(EquilibratedCondition(evaluator!, x) <= _solve.Endgame.SingularConditionLimit))
         {
             return null;
         }
@@ -233,7 +275,80 @@ internal sealed class MonodromySolver
         return affinePoint;
     }
 
-    private static Complex[][] NewLoop(Complex[] basis, SeededRandom random)
+    /// <summary>
+    /// The corners' spread relative to the base point: 1 while loops find new solutions, then doubling with each
+    /// loop that found nothing, up to 16. Small triangles encircle the branch points near the base; once those
+    /// stop adding solutions, the ones that join the missing solutions to the known ones may lie farther out
+    /// (for the five-bus microgrid, where the large solutions of the base fiber meet the others). Loops wider
+    /// than about 16 mixed those no more often.
+    /// </summary>
+    private static double LoopSpread(int loopsWithoutNew) => 1 << Math.Min(loopsWithoutNew, 4);
+
+    /// <summary>
+    /// κ₁ of ∂H/∂X at the unit vector X̂ = X/‖X‖₂, the chart row replaced by X̂* (as in
+    /// <see cref="PathTracker.ProjectiveCondition"/>), after dividing every row by its largest entry. Scaling an
+    /// equation changes neither its solutions nor whether they are singular, but without the row scaling a
+    /// regular solution whose coordinates differ widely in size is misread as singular when the equations'
+    /// degrees differ: in cyclic-6 with constant parameters, an orbit of 12 solutions with |x| ≈ 60 had
+    /// κ ≈ 8·10¹¹ unscaled and 3·10⁴ scaled, and every loop track that reached them was thrown away.
+    /// </summary>
+    private static double EquilibratedCondition(IHomotopy evaluator, ReadOnlySpan<Complex> x)
+    {
+        var n = x.Length;
+        var norm = 0.0;
+        foreach (var z in x)
+        {
+            norm += (z.Real * z.Real) + (z.Imaginary * z.Imaginary);
+        }
+
+        norm = Math.Sqrt(norm);
+        if (!(norm > 0) || !double.IsFinite(norm))
+        {
+            return double.PositiveInfinity;
+        }
+
+        var unit = new Complex[n];
+        for (var i = 0; i < n; i++)
+        {
+            unit[i] = x[i] / norm;
+        }
+
+        var values = new Complex[n];
+        var jacobian = new Complex[n * n];
+        evaluator.Evaluate(unit, Complex.One, values, jacobian);
+        for (var j = 0; j < n; j++)
+        {
+            jacobian[((n - 1) * n) + j] = Complex.Conjugate(unit[j]);
+        }
+
+        for (var i = 0; i < n; i++)
+        {
+            var row = jacobian.AsSpan(i * n, n);
+            var largest = 0.0;
+            foreach (var entry in row)
+            {
+                largest = Math.Max(largest, entry.Magnitude);
+            }
+
+            if (!(largest > 0) || !double.IsFinite(largest))
+            {
+                return double.PositiveInfinity;
+            }
+
+            for (var j = 0; j < n; j++)
+            {
+                row[j] /= largest;
+            }
+        }
+
+        var jacobianNorm = ComplexLu.OneNorm(jacobian, n);
+        var pivots = new int[n];
+        return ComplexLu.Factor(jacobian, n, pivots)
+            ? jacobianNorm * ComplexLu.EstimateInverseOneNorm(jacobian, n, pivots, new Complex[2 * n])
+            : double.PositiveInfinity;
+    }
+
+    private static Complex[][] NewLoop(Complex[] basis, SeededRandom random, double spread)
     {
         var corners = new Complex[2][];
         for (var c = 0; c < 2; c++)
@@ -241,7 +356,7 @@ internal sealed class MonodromySolver
             corners[c] = new Complex[basis.Length];
             for (var k = 0; k < basis.Length; k++)
             {
-                corners[c][k] = basis[k] + ((1 + basis[k].Magnitude) * random.NextComplexGaussian());
+                corners[c][k] = basis[k] + (spread * (1 + basis[k].Magnitude) * random.NextComplexGaussian());
             }
         }
 

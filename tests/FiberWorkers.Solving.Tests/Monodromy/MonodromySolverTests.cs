@@ -1,0 +1,162 @@
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.Monodromy;
+using FiberWorkers.Solving.StartFibers;
+using FiberWorkers.Testing;
+
+namespace FiberWorkers.Solving.Tests.Monodromy;
+
+/// <summary>The monodromy search's stopping rules, its report, and its determinism across thread counts.</summary>
+public sealed class MonodromySolverTests
+{
+    [Theory]
+    [InlineData("microgrid4", 14, 8_101)]
+    [InlineData("microgrid5", 70, 8_102)]
+    public void An_expected_count_ends_the_search_as_soon_as_it_is_reached(string example, int rootCount, int seed)
+    {
+        // The counts are the bundled families' true ones: 14 for four buses with equal lines (Gröbner-basis
+        // computation, REFERENCES.md) and 70 = C(8, 4) for five buses with unequal lines (Baillieul & Byrnes 1982,
+        // from memory), both confirmed against total degree in MonodromyMicrogridTests.
+        var family = TestFamilies.Example(example);
+
+        var without = Run(family, seed, MonodromyOptions.Default);
+        var with = Run(family, seed, MonodromyOptions.Default with { ExpectedRootCount = rootCount });
+
+        Assert.Equal(rootCount, without.Fiber.RootCount);
+        Assert.Equal(rootCount, with.Fiber.RootCount);
+        Assert.Equal(rootCount, with.Report.BaseRootCount);
+        Assert.True(with.Report.Loops < without.Report.Loops, $"{with.Report.Loops} loops with the count, {without.Report.Loops} without");
+        Assert.True(with.Report.LoopTracks < without.Report.LoopTracks);
+        // It stopped inside the loop that completed the fiber, not after a loop that found nothing.
+        Assert.Equal(0, with.Report.LoopsWithoutNew);
+        Assert.Equal("expected-count", with.Report.Completeness);
+        Assert.Equal("expected-count", with.Fiber.Provenance.Completeness);
+        Assert.Equal("monodromy", with.Fiber.Provenance.Method);
+        Assert.Contains($"reached the expected count {rootCount}", with.Fiber.Provenance.Note, StringComparison.Ordinal);
+        Assert.NotEqual("expected-count", without.Fiber.Provenance.Completeness);
+    }
+
+    [Fact]
+    public void An_expected_count_above_the_true_one_is_not_claimed_and_the_trace_test_ends_the_search()
+    {
+        // Four buses with unequal lines of our own: 20 solutions (MonodromyMicrogridTests). A hint of 21 cannot be
+        // reached; the passed trace test ends the search instead.
+        var family = TestFamilies.CompleteMicrogrid(4, MonodromyMicrogridTests.UnequalLine);
+
+        var result = Run(family, 8_201, MonodromyOptions.Default with { ExpectedRootCount = 21 });
+
+        Assert.Equal(20, result.Fiber.RootCount);
+        Assert.Equal("trace-test", result.Fiber.Provenance.Completeness);
+        Assert.DoesNotContain("expected count", result.Fiber.Provenance.Note, StringComparison.Ordinal);
+    }
+
+    [Fact]
+    public void An_unreachable_expected_count_without_a_passing_trace_test_ends_by_the_stopping_rule()
+    {
+        // Four buses with equal lines: 14 solutions (Gröbner-basis computation, REFERENCES.md), and a trace test
+        // that does not apply. A hint of 15 must neither be claimed nor keep the search going to MaxLoops.
+        var family = TestFamilies.Example("microgrid4");
+        var options = MonodromyOptions.Default with { ExpectedRootCount = 15 };
+
+        var result = Run(family, 8_202, options);
+
+        Assert.Equal(14, result.Fiber.RootCount);
+        Assert.Equal("stopping-rule", result.Report.Completeness);
+        Assert.True(result.Report.Loops < options.MaxLoops);
+        // A failed trace test multiplies the loops without a new solution that the stopping rule asks for.
+        var patience = MonodromySolver.TraceFailurePatience * options.StallLoops;
+        Assert.False(result.Report.TraceTest!.Passed);
+        Assert.Equal(patience, result.Report.LoopsWithoutNew);
+        Assert.Contains($"stopped after {patience} loops without a new solution", result.Fiber.Provenance.Note, StringComparison.Ordinal);
+    }
+
+    [Theory]
+    [InlineData(1_065)]
+    [InlineData(1_074)]
+    [InlineData(1_137)]
+    public void Two_link_arm_base_points_whose_loops_rarely_swap_still_give_both_solutions(int seed)
+    {
+        // The planar two-link arm has two inverse-kinematics solutions for a generic target (standard robot
+        // kinematics, e.g. Craig, Introduction to Robotics), and the trace test does not apply to it. At these
+        // seeds' base points few loops swap the two (about one in six at the first), and the search used to stop
+        // with one.
+        var family = TestFamilies.Example("two-link-arm");
+
+        var result = Run(family, seed, MonodromyOptions.Default);
+
+        Assert.Equal(2, result.Fiber.RootCount);
+    }
+
+    [Fact]
+    public void Without_the_trace_test_the_stopping_rule_ends_the_search_after_the_stall_loops()
+    {
+        var family = TestFamilies.CompleteMicrogrid(4, MonodromyMicrogridTests.UnequalLine);
+        var options = MonodromyOptions.Default with { TraceTest = false, StallLoops = 3 };
+
+        var result = Run(family, 8_301, options);
+
+        Assert.Equal(20, result.Fiber.RootCount);
+        Assert.Null(result.Report.TraceTest);
+        Assert.Equal(3, result.Report.LoopsWithoutNew);
+        Assert.Equal("stopping-rule", result.Fiber.Provenance.Completeness);
+    }
+
+    [Fact]
+    public void The_loop_limit_is_respected_and_a_short_search_is_not_called_complete()
+    {
+        var family = TestFamilies.Cyclic(6, withConstantParameters: true);
+        var options = MonodromyOptions.Default with { MaxLoops = 1 };
+
+        var result = Run(family, 8_401, options);
+
+        Assert.Equal(1, result.Report.Loops);
+        Assert.InRange(result.Fiber.RootCount, 1, 155);
+        Assert.Equal("stopping-rule", result.Fiber.Provenance.Completeness);
+    }
+
+    [Fact]
+    public void The_report_adds_up()
+    {
+        var family = TestFamilies.Example("microgrid5");
+
+        var (fiber, report) = Run(family, 8_501, MonodromyOptions.Default);
+
+        Assert.True(report.Augmented);
+        // One path per base solution to q = 0 (no path failed here, so no detour was needed).
+        Assert.Equal(report.BaseRootCount, report.FinalPaths);
+        Assert.InRange(report.FailedTracks, 0, report.LoopTracks);
+        // Every solution goes around every loop it has not been around yet: at least one track per solution
+        // and loop once the search has settled.
+        Assert.True(report.LoopTracks >= (long)report.BaseRootCount * (report.Loops - 1));
+        Assert.Equal((3 * report.LoopTracks) + report.FinalPaths, fiber.Provenance.PathsTracked);
+        Assert.Equal((ulong)8_501, fiber.Provenance.Seed);
+    }
+
+    [Theory]
+    [InlineData("microgrid5", 8_601)]
+    [InlineData("cyclic-6", 8_602)]
+    public void The_same_seed_gives_identical_fibers_with_one_and_two_threads(string name, int seed)
+    {
+        var family = name == "cyclic-6" ? TestFamilies.Cyclic(6, withConstantParameters: true) : TestFamilies.Example(name);
+
+        var single = Run(family, seed, MonodromyOptions.Default, threads: 1);
+        var dual = Run(family, seed, MonodromyOptions.Default, threads: 2);
+
+        Assert.Equal(single.Report, dual.Report);
+        Assert.Equal(single.Fiber.Provenance, dual.Fiber.Provenance);
+        Assert.Equal(single.Fiber.Parameters, dual.Fiber.Parameters);
+        Assert.Equal(single.Fiber.RootCount, dual.Fiber.RootCount);
+        for (var i = 0; i < single.Fiber.RootCount; i++)
+        {
+            // Complex equality is exact: the same bits in the same order.
+            Assert.Equal(single.Fiber.Solutions[i], dual.Fiber.Solutions[i]);
+        }
+    }
+
+    private static (StartFiber Fiber, MonodromyReport Report) Run(FamilyDefinition family, int seed, MonodromyOptions options, int threads = 2)
+    {
+        var solve = new SolveOptions { Seed = seed, MaxDegreeOfParallelism = threads };
+        var point = new FiberSolver(family.System, solve).GenericPoint(family.Parameters, "start-fiber");
+        return new MonodromySolver(family.System, solve, options).Solve(family.ContentHash, point);
+    }
+}
