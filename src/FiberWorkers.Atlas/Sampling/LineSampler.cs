@@ -16,7 +16,7 @@ namespace FiberWorkers.Atlas.Sampling;
 /// where no classifier can tell the sides apart from neighbours. The offset along the line is δ/cos φ (φ the angle
 /// between line and normal), at most a quarter of the neighbouring interval. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
 /// them) but are not boundaries: the count must agree on both sides. Counts that change by an odd number across a
-/// fold, or at all across a passage, are flagged and kept.
+/// fold, by anything but two across a single fold, or at all across a passage, are flagged and kept.
 /// </summary>
 internal sealed class LineSampler
 {
@@ -84,9 +84,16 @@ internal sealed class LineSampler
             var (left, right) = (midpoints[c].Solution.RealCount, midpoints[c + 1].Solution.RealCount);
             var at = groups[c][0].S.ToString("G6", CultureInfo.InvariantCulture);
             var boundary = groups[c].Any(x => x.IsBoundary);
+            var folds = groups[c].Count(x => x.IsBoundary);
             if (boundary && (left - right) % 2 != 0)
             {
                 flags.Add($"line {lineIndex}: the real count changes by an odd number ({left} to {right}) across the fold at s = {at}");
+            }
+            else if (folds == 1 && Math.Abs(left - right) != 2)
+            {
+                // A simple fold turns one real pair into a complex pair: any other change means a crossing nearby was
+                // missed (or this one is not simple).
+                flags.Add($"line {lineIndex}: the real count changes by {Math.Abs(left - right)} ({left} to {right}) across the single fold at s = {at}, not by 2: a crossing may be missing nearby");
             }
             else if (!boundary && left != right)
             {

@@ -67,7 +67,7 @@ internal static class SolveCommand
             {
                 if (chosen == "total-degree")
                 {
-                    solution = solver.SolveTotalDegree(FiberOutput.ToComplex(point), definition.RootCount);
+                    solution = solver.SolveTotalDegree(FiberOutput.ToComplex(point));
                     how = $"total-degree homotopy, {solution.PathsTracked} paths (Bézout number)";
                 }
                 else

@@ -245,12 +245,10 @@ internal sealed class MonodromySolver
         chart.Lift(start, x);
         var corners = new[] { basis, loop[0], loop[1], basis };
         PathTracker? tracker = null;
-        IHomotopy? evaluator = null;
         for (var edge = 0; edge < 3; edge++)
         {
             var homotopy = new ParameterHomotopy(projective, chart, corners[edge], corners[edge + 1]);
-            evaluator = homotopy.CreateEvaluator();
-            tracker = new PathTracker(evaluator);
+            tracker = new PathTracker(homotopy.CreateEvaluator());
             if (!tracker.Track(x, 0, 1, _solve.Tracker).Completed)
             {
                 return null;
@@ -261,7 +259,7 @@ internal sealed class MonodromySolver
         // a chart-independent, row-equilibrated condition number; only then leave the chart.
         tracker!.Refine(x, 1, 4, 1e-15);
         if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
-            || !(EquilibratedCondition(evaluator!, x) <= _solve.Endgame.SingularConditionLimit))
+            || !(tracker.ProjectiveCondition(x, 1) <= _solve.Endgame.SingularConditionLimit))
         {
             return null;
         }
@@ -283,70 +281,6 @@ internal sealed class MonodromySolver
     /// than about 16 mixed those no more often.
     /// </summary>
     private static double LoopSpread(int loopsWithoutNew) => 1 << Math.Min(loopsWithoutNew, 4);
-
-    /// <summary>
-    /// κ₁ of ∂H/∂X at the unit vector X̂ = X/‖X‖₂, the chart row replaced by X̂* (as in
-    /// <see cref="PathTracker.ProjectiveCondition"/>), after dividing every row by its largest entry. Scaling an
-    /// equation changes neither its solutions nor whether they are singular, but without the row scaling a
-    /// regular solution whose coordinates differ widely in size is misread as singular when the equations'
-    /// degrees differ: in cyclic-6 with constant parameters, an orbit of 12 solutions with |x| ≈ 60 had
-    /// κ ≈ 8·10¹¹ unscaled and 3·10⁴ scaled, and every loop track that reached them was thrown away.
-    /// </summary>
-    private static double EquilibratedCondition(IHomotopy evaluator, ReadOnlySpan<Complex> x)
-    {
-        var n = x.Length;
-        var norm = 0.0;
-        foreach (var z in x)
-        {
-            norm += (z.Real * z.Real) + (z.Imaginary * z.Imaginary);
-        }
-
-        norm = Math.Sqrt(norm);
-        if (!(norm > 0) || !double.IsFinite(norm))
-        {
-            return double.PositiveInfinity;
-        }
-
-        var unit = new Complex[n];
-        for (var i = 0; i < n; i++)
-        {
-            unit[i] = x[i] / norm;
-        }
-
-        var values = new Complex[n];
-        var jacobian = new Complex[n * n];
-        evaluator.Evaluate(unit, Complex.One, values, jacobian);
-        for (var j = 0; j < n; j++)
-        {
-            jacobian[((n - 1) * n) + j] = Complex.Conjugate(unit[j]);
-        }
-
-        for (var i = 0; i < n; i++)
-        {
-            var row = jacobian.AsSpan(i * n, n);
-            var largest = 0.0;
-            foreach (var entry in row)
-            {
-                largest = Math.Max(largest, entry.Magnitude);
-            }
-
-            if (!(largest > 0) || !double.IsFinite(largest))
-            {
-                return double.PositiveInfinity;
-            }
-
-            for (var j = 0; j < n; j++)
-            {
-                row[j] /= largest;
-            }
-        }
-
-        var jacobianNorm = ComplexLu.OneNorm(jacobian, n);
-        var pivots = new int[n];
-        return ComplexLu.Factor(jacobian, n, pivots)
-            ? jacobianNorm * ComplexLu.EstimateInverseOneNorm(jacobian, n, pivots, new Complex[2 * n])
-            : double.PositiveInfinity;
-    }
 
     private static Complex[][] NewLoop(Complex[] basis, SeededRandom random, double spread)
     {
