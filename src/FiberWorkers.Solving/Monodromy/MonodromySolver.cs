@@ -53,81 +53,40 @@ internal sealed class MonodromySolver
         var projective = system.Homogenize().Compile();
         var chart = ProjectiveChart.Random(n + 1, random);
         var solutions = new List<Complex[]> { x0 };
-        var loops = new List<Complex[][]>();
-        var pending = new List<(int Solution, int Loop)>();
-        long tracks = 0;
-        long failedTracks = 0;
-        var stall = 0;
         var expected = _options.ExpectedRootCount;
         var solver = new FiberSolver(system, _solve);
-        var trace = (TraceTestResult?)null;
-        var skipped = (string?)null;
-        var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
-        // A failed trace test is the only warning that solutions may be missing, so it quadruples the stall loops
-        // needed before the stopping rule may end the search. Some base points have loops that mix the missing
-        // solutions with the known ones only now and then: in a sixth to under half of the loops, for five-bus
-        // microgrid fibers missing a group of 5 to 10 large solutions and for two-link-arm fibers missing one of
-        // their two. With twice the stall loops about one microgrid fiber in 90 and one arm fiber in 30 stopped
-        // short (600 seeds each); with four times, one microgrid fiber in 300 and one arm fiber in 1,200.
-        while (loops.Count < _options.MaxLoops && !(solutions.Count >= expected)
-            && stall < (trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops))
-        {
-            loops.Add(NewLoop(basis, random, LoopSpread(stall)));
-            var before = solutions.Count;
-            for (var s = 0; s < solutions.Count; s++)
-            {
-                pending.Add((s, loops.Count - 1));
-            }
-
-            while (pending.Count > 0 && !(solutions.Count >= expected))
-            {
-                var batch = pending.ToArray();
-                pending.Clear();
-                var ends = TrackBatch(batch, solutions, loops, projective, chart, basis);
-                tracks += batch.Length;
-                foreach (var end in ends)
-                {
-                    if (end is null)
-                    {
-                        failedTracks++;
-                        continue;
-                    }
-
-                    if (!solutions.Any(known => Close(known, end, MergeTolerance)))
-                    {
-                        solutions.Add(end);
-                        for (var l = 0; l < loops.Count; l++)
-                        {
-                            pending.Add((solutions.Count - 1, l));
-                        }
-                    }
-                }
-            }
-
-            stall = solutions.Count == before ? stall + 1 : 0;
-
-            // Once a loop adds nothing, the trace test on the base fiber (two tracks per solution, cheaper than a
-            // loop's three) can end the search. A failure means solutions are missing or that the test does not
-            // apply (points of the fiber at infinity on the moving slice); the stopping rule then decides.
-            if (stall > 0 && _options.TraceTest && !(solutions.Count >= expected))
-            {
-                (trace, skipped) = traceTest.Run(basis, solutions, random);
-                if (trace is { Passed: true })
-                {
-                    break;
-                }
-            }
-        }
+        var phase = RunLoops(system, projective, chart, basis, solutions, augmented ? null : expected, random);
 
         // Bring the base fiber to the family itself at p₀ when it was augmented.
-        var (fiber, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, tracks, random);
+        var (found, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, phase.Tracks, random);
+        var fiber = found.ToList();
+        var tracks = phase.Tracks;
+        var failedTracks = phase.Failed;
+        var loopCount = phase.Loops;
+        var stall = phase.Stall;
+        var trace = phase.Trace;
+        var skipped = phase.Skipped;
+        if (augmented && fiber.Count > 0 && _system.ParameterCount > 0 && !(fiber.Count >= expected))
+        {
+            // The homotopy to q = 0 can lose solutions whose paths meet singularities or escape; loops in the
+            // family's own parameters, started from the fiber it reached, find them again wherever the family's
+            // solutions form one connected (irreducible) set with those already known.
+            var own = RunLoops(_system, _system.Homogenize().Compile(), ProjectiveChart.Random(n + 1, random), parameters, fiber, expected, random);
+            tracks += own.Tracks;
+            failedTracks += own.Failed;
+            loopCount += own.Loops;
+            stall = own.Stall;
+            trace = own.Trace ?? trace;
+            skipped = own.Skipped ?? skipped;
+        }
+
         var completeness = expected is { } count && fiber.Count >= count ? "expected-count"
             : trace is { Passed: true } ? "trace-test"
             : "stopping-rule";
         var baseCount = solutions.Count;
         var report = new MonodromyReport
         {
-            Loops = loops.Count,
+            Loops = loopCount,
             LoopsWithoutNew = stall,
             LoopTracks = tracks,
             FailedTracks = failedTracks,
@@ -138,7 +97,7 @@ internal sealed class MonodromySolver
             TraceTest = trace,
             TraceTestSkipped = skipped,
         };
-        var note = $"monodromy: {loops.Count} loops, {tracks} loop tracks ({failedTracks} failed), {baseCount} solutions at the "
+        var note = $"monodromy: {loopCount} loops, {tracks} loop tracks ({failedTracks} failed), {baseCount} solutions at the "
             + (augmented ? $"augmented base point, {fiber.Count} after the homotopy to q = 0; " : $"base point; ")
             + completeness switch
             {
@@ -237,6 +196,84 @@ internal sealed class MonodromySolver
                 ends[k] = AroundLoop(solutions[solution], loops[loop], projective, chart, basis);
             });
         return ends;
+    }
+
+    /// <summary>What one phase of loops did.</summary>
+    private readonly record struct LoopPhase(int Loops, long Tracks, long Failed, int Stall, TraceTestResult? Trace, string? Skipped);
+
+    /// <summary>
+    /// Tracks every known (solution, loop) pair, adds new endpoints, adds loops while they keep finding solutions,
+    /// and stops on the expected count, a passing trace test, or the stopping rule. <paramref name="solutions"/>
+    /// grows in place; merging in batch order keeps it independent of thread counts.
+    /// </summary>
+    private LoopPhase RunLoops(
+        PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions, int? expected, SeededRandom random)
+    {
+        var loops = new List<Complex[][]>();
+        var pending = new List<(int Solution, int Loop)>();
+        long tracks = 0;
+        long failedTracks = 0;
+        var stall = 0;
+        var trace = (TraceTestResult?)null;
+        var skipped = (string?)null;
+        var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
+        // A failed trace test is the only warning that solutions may be missing, so it quadruples the stall loops
+        // needed before the stopping rule may end the search. Some base points have loops that mix the missing
+        // solutions with the known ones only now and then: in a sixth to under half of the loops, for five-bus
+        // microgrid fibers missing a group of 5 to 10 large solutions and for two-link-arm fibers missing one of
+        // their two. With twice the stall loops about one microgrid fiber in 90 and one arm fiber in 30 stopped
+        // short (600 seeds each); with four times, one microgrid fiber in 300 and one arm fiber in 1,200.
+        while (loops.Count < _options.MaxLoops && !(solutions.Count >= expected)
+            && stall < (trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops))
+        {
+            loops.Add(NewLoop(basis, random, LoopSpread(stall)));
+            var before = solutions.Count;
+            for (var s = 0; s < solutions.Count; s++)
+            {
+                pending.Add((s, loops.Count - 1));
+            }
+
+            while (pending.Count > 0 && !(solutions.Count >= expected))
+            {
+                var batch = pending.ToArray();
+                pending.Clear();
+                var ends = TrackBatch(batch, solutions, loops, projective, chart, basis);
+                tracks += batch.Length;
+                foreach (var end in ends)
+                {
+                    if (end is null)
+                    {
+                        failedTracks++;
+                        continue;
+                    }
+
+                    if (!solutions.Any(known => Close(known, end, MergeTolerance)))
+                    {
+                        solutions.Add(end);
+                        for (var l = 0; l < loops.Count; l++)
+                        {
+                            pending.Add((solutions.Count - 1, l));
+                        }
+                    }
+                }
+            }
+
+            stall = solutions.Count == before ? stall + 1 : 0;
+
+            // Once a loop adds nothing, the trace test on the base fiber (two tracks per solution, cheaper than a
+            // loop's three) can end the search. A failure means solutions are missing or that the test does not
+            // apply (points of the fiber at infinity on the moving slice); the stopping rule then decides.
+            if (stall > 0 && _options.TraceTest && !(solutions.Count >= expected))
+            {
+                (trace, skipped) = traceTest.Run(basis, solutions, random);
+                if (trace is { Passed: true })
+                {
+                    break;
+                }
+            }
+        }
+
+        return new LoopPhase(loops.Count, tracks, failedTracks, stall, trace, skipped);
     }
 
     private Complex[]? AroundLoop(Complex[] start, Complex[][] loop, CompiledSystem projective, ProjectiveChart chart, Complex[] basis)
