@@ -55,10 +55,36 @@ internal sealed class MonodromySolver
         var solutions = new List<Complex[]> { x0 };
         var expected = _options.ExpectedRootCount;
         var solver = new FiberSolver(system, _solve);
-        var phase = RunLoops(system, projective, chart, basis, solutions, augmented ? null : expected, random);
+        // With an expected count, the search ends once the family's own fiber holds that many solutions. At an
+        // augmented base point the count is checked on the fiber after the homotopy to q = 0 (the augmented fiber
+        // may be larger, and some of its solutions may go to infinity), whenever the augmented fiber has grown
+        // by an eighth since the last check.
+        (IReadOnlyList<Complex[]> Fiber, int FinalPaths)? checkedFiber = null;
+        var checkedAt = 0;
+        var checkPaths = 0;
+        Func<List<Complex[]>, bool> complete = expected is not { } goal ? _ => false
+            : !augmented ? known => known.Count >= goal
+            : known =>
+            {
+                if (known.Count < goal || (checkedAt > 0 && known.Count < checkedAt + Math.Max(1, checkedAt / 8)))
+                {
+                    return false;
+                }
+
+                checkedAt = known.Count;
+                var atBase = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, known, 0, random);
+                checkPaths += atBase.FinalPaths;
+                checkedFiber = atBase.Fiber.Count >= goal ? atBase : null;
+                return checkedFiber is not null;
+            };
+        var phase = RunLoops(system, projective, chart, basis, solutions, complete, random);
 
         // Bring the base fiber to the family itself at p₀ when it was augmented.
-        var (found, finalPaths) = FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, phase.Tracks, random);
+        // A successful check ended the loops at once, so its fiber is the final one.
+        var (found, lastPaths) = checkedFiber is { } reached
+            ? (reached.Fiber, 0)
+            : FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, phase.Tracks, random);
+        var finalPaths = checkPaths + lastPaths;
         var fiber = found.ToList();
         var tracks = phase.Tracks;
         var failedTracks = phase.Failed;
@@ -71,7 +97,9 @@ internal sealed class MonodromySolver
             // The homotopy to q = 0 can lose solutions whose paths meet singularities or escape; loops in the
             // family's own parameters, started from the fiber it reached, find them again wherever the family's
             // solutions form one connected (irreducible) set with those already known.
-            var own = RunLoops(_system, _system.Homogenize().Compile(), ProjectiveChart.Random(n + 1, random), parameters, fiber, expected, random);
+            var own = RunLoops(
+                _system, _system.Homogenize().Compile(), ProjectiveChart.Random(n + 1, random), parameters, fiber,
+                known => known.Count >= expected, random);
             tracks += own.Tracks;
             failedTracks += own.Failed;
             loopCount += own.Loops;
@@ -207,7 +235,8 @@ internal sealed class MonodromySolver
     /// grows in place; merging in batch order keeps it independent of thread counts.
     /// </summary>
     private LoopPhase RunLoops(
-        PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions, int? expected, SeededRandom random)
+        PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions,
+        Func<List<Complex[]>, bool> complete, SeededRandom random)
     {
         var loops = new List<Complex[][]>();
         var pending = new List<(int Solution, int Loop)>();
@@ -223,7 +252,8 @@ internal sealed class MonodromySolver
         // microgrid fibers missing a group of 5 to 10 large solutions and for two-link-arm fibers missing one of
         // their two. With twice the stall loops about one microgrid fiber in 90 and one arm fiber in 30 stopped
         // short (600 seeds each); with four times, one microgrid fiber in 300 and one arm fiber in 1,200.
-        while (loops.Count < _options.MaxLoops && !(solutions.Count >= expected)
+        var done = false;
+        while (!done && loops.Count < _options.MaxLoops
             && stall < (trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops))
         {
             loops.Add(NewLoop(basis, random, LoopSpread(stall)));
@@ -233,7 +263,7 @@ internal sealed class MonodromySolver
                 pending.Add((s, loops.Count - 1));
             }
 
-            while (pending.Count > 0 && !(solutions.Count >= expected))
+            while (pending.Count > 0 && !(done = complete(solutions)))
             {
                 var batch = pending.ToArray();
                 pending.Clear();
@@ -263,7 +293,8 @@ internal sealed class MonodromySolver
             // Once a loop adds nothing, the trace test on the base fiber (two tracks per solution, cheaper than a
             // loop's three) can end the search. A failure means solutions are missing or that the test does not
             // apply (points of the fiber at infinity on the moving slice); the stopping rule then decides.
-            if (stall > 0 && _options.TraceTest && !(solutions.Count >= expected))
+            done = done || complete(solutions);
+            if (stall > 0 && _options.TraceTest && !done)
             {
                 (trace, skipped) = traceTest.Run(basis, solutions, random);
                 if (trace is { Passed: true })
