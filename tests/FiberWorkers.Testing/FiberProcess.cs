@@ -2,13 +2,13 @@ using System.Diagnostics;
 using System.Text;
 using System.Text.Json;
 
-namespace FiberWorkers.Atlas.Tests.Support;
+namespace FiberWorkers.Testing;
 
 /// <summary>
-/// Runs the built <c>fiber</c> executable as a child process (the test project references the CLI project without
-/// its assembly, so the CLI is built first, in the same configuration).
+/// Runs the built <c>fiber</c> executable as a child process (test projects that use it reference the CLI project
+/// without its assembly, so the CLI is built first, in the same configuration and runtime).
 /// </summary>
-internal sealed class FiberProcess : IDisposable
+public sealed class FiberProcess : IDisposable
 {
     private readonly Process _process;
     private readonly StringBuilder _output = new();
@@ -23,6 +23,9 @@ internal sealed class FiberProcess : IDisposable
     public static string Executable { get; } = Locate();
 
     public bool HasExited => _process.HasExited;
+
+    /// <summary>The child's process id.</summary>
+    public int Id => _process.Id;
 
     public int ExitCode => _process.ExitCode;
 
@@ -48,7 +51,10 @@ internal sealed class FiberProcess : IDisposable
         }
     }
 
-    public static FiberProcess Start(params string[] arguments)
+    public static FiberProcess Start(params string[] arguments) => Start(null, arguments);
+
+    /// <summary>Starts the executable with extra environment variables.</summary>
+    public static FiberProcess Start(IReadOnlyDictionary<string, string>? environment, params string[] arguments)
     {
         var host = Environment.GetEnvironmentVariable("DOTNET_HOST_PATH") is { Length: > 0 } path && File.Exists(path) ? path : "dotnet";
         var start = new ProcessStartInfo(host)
@@ -57,6 +63,11 @@ internal sealed class FiberProcess : IDisposable
             RedirectStandardError = true,
             UseShellExecute = false,
         };
+        foreach (var (name, value) in environment ?? new Dictionary<string, string>())
+        {
+            start.Environment[name] = value;
+        }
+
         start.ArgumentList.Add(Executable);
         foreach (var argument in arguments)
         {
@@ -105,7 +116,17 @@ internal sealed class FiberProcess : IDisposable
         return true;
     }
 
-    /// <summary>Kills the child (and anything it started) at once, as a crash would.</summary>
+    /// <summary>Sends SIGTERM (a polite stop: the process may finish what it is doing).</summary>
+    public void Terminate()
+    {
+        if (!_process.HasExited)
+        {
+            using var kill = Process.Start(new ProcessStartInfo("kill", ["-TERM", _process.Id.ToString(System.Globalization.CultureInfo.InvariantCulture)]) { UseShellExecute = false });
+            kill?.WaitForExit();
+        }
+    }
+
+    /// <summary>Kills the child (and anything it started) at once, as a crash would (SIGKILL).</summary>
     public void Kill()
     {
         if (!_process.HasExited)
@@ -145,7 +166,7 @@ internal sealed class FiberProcess : IDisposable
         var executable = Path.Combine([root.FullName, "src", "FiberWorkers.Cli", "bin", .. parts, "fiber.dll"]);
         return File.Exists(executable)
             ? executable
-            : throw new InvalidOperationException($"{executable} is missing: build tests/FiberWorkers.Atlas.Tests (it builds the CLI first)");
+            : throw new InvalidOperationException($"{executable} is missing: build the test project (it builds the CLI first)");
     }
 
     private void Append(StringBuilder buffer, string? line)
