@@ -35,6 +35,23 @@ public sealed class AtlasSnapshot
     public IReadOnlyList<(string Tile, Crossing Crossing)> Crossings { get; }
 
     /// <summary>
+    /// A snapshot of part of a version: the given tiles only (a cluster worker's shard: one tile and its halo). The
+    /// tiles must belong to <paramref name="family"/>.
+    /// </summary>
+    public static AtlasSnapshot FromTiles(string atlasId, FamilyDefinition family, AtlasVersionInfo version, IReadOnlyList<TileResult> tiles)
+    {
+        ArgumentNullException.ThrowIfNull(family);
+        ArgumentNullException.ThrowIfNull(version);
+        ArgumentNullException.ThrowIfNull(tiles);
+        if (tiles.FirstOrDefault(t => t.FamilyHash != family.ContentHash) is { } foreign)
+        {
+            throw new ArgumentException($"tile {foreign.TileKey} belongs to family {foreign.FamilyHash}, not {family.ContentHash}", nameof(tiles));
+        }
+
+        return new AtlasSnapshot(atlasId, family, version, [.. tiles.OrderBy(t => t.TileKey, StringComparer.Ordinal)]);
+    }
+
+    /// <summary>
     /// Loads a version (the latest when <paramref name="version"/> is null) of the atlas in a store; the store must
     /// hold exactly one atlas unless <paramref name="atlasId"/> names it.
     /// </summary>

@@ -80,6 +80,36 @@ public readonly record struct TileKey(int Level, int[] Coordinates) : IComparabl
         return (low, high);
     }
 
+    /// <summary>The level-0 tile this one lies in (itself at level 0).</summary>
+    public TileKey Root()
+    {
+        var level = Level;
+        return level == 0 ? this : new TileKey(0, [.. Coordinates.Select(c => c >> level)]);
+    }
+
+    /// <summary>
+    /// The level-0 tile containing <paramref name="point"/>; points outside the box go to the nearest tile (and points
+    /// on an inner edge to the tile above it). Throws when the point's length differs from the box's.
+    /// </summary>
+    public static TileKey Containing(ReadOnlySpan<double> point, IReadOnlyList<ParameterBox> box, IReadOnlyList<int> divisions)
+    {
+        ArgumentNullException.ThrowIfNull(box);
+        ArgumentNullException.ThrowIfNull(divisions);
+        if (point.Length != box.Count || divisions.Count != box.Count)
+        {
+            throw new ArgumentException($"a point of {point.Length} values for a box of {box.Count} parameters and {divisions.Count} divisions");
+        }
+
+        var coordinates = new int[box.Count];
+        for (var k = 0; k < box.Count; k++)
+        {
+            var cell = Math.Floor((point[k] - box[k].Low) / box[k].Width * divisions[k]);
+            coordinates[k] = double.IsNaN(cell) ? 0 : (int)Math.Clamp(cell, 0, divisions[k] - 1);
+        }
+
+        return new TileKey(0, coordinates);
+    }
+
     /// <summary>True when the coordinates fit the grid at this level.</summary>
     public bool FitsIn(IReadOnlyList<int> divisions)
     {

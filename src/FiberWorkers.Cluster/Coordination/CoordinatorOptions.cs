@@ -1,0 +1,46 @@
+namespace FiberWorkers.Cluster.Coordination;
+
+/// <summary>How the coordinator schedules, retries and routes. Nothing here shapes atlas content.</summary>
+public sealed record CoordinatorOptions
+{
+    public static CoordinatorOptions Default { get; } = new();
+
+    /// <summary>Interval workers heartbeat at; a worker silent for <see cref="MissedHeartbeats"/> intervals is lost.</summary>
+    public TimeSpan Heartbeat { get; init; } = TimeSpan.FromSeconds(1);
+
+    public int MissedHeartbeats { get; init; } = 3;
+
+    /// <summary>Deadline of one attempt at a tile; past it the tile goes to another worker.</summary>
+    public TimeSpan TileDeadline { get; init; } = TimeSpan.FromMinutes(10);
+
+    /// <summary>Attempts at one tile before the sweep fails (it can be resumed by submitting it again).</summary>
+    public int MaxTileAttempts { get; init; } = 12;
+
+    /// <summary>First retry delay of a failed tile (exponential backoff with jitter, capped by <see cref="RetryMaxDelay"/>).</summary>
+    public TimeSpan RetryDelay { get; init; } = TimeSpan.FromMilliseconds(200);
+
+    public TimeSpan RetryMaxDelay { get; init; } = TimeSpan.FromSeconds(5);
+
+    /// <summary>A worker's circuit opens when this share of its recent tile calls failed ...</summary>
+    public double BreakFailureRatio { get; init; } = 0.5;
+
+    /// <summary>... with at least this many calls in the sampling window ...</summary>
+    public int BreakMinimumThroughput { get; init; } = 3;
+
+    public TimeSpan BreakSampling { get; init; } = TimeSpan.FromSeconds(30);
+
+    /// <summary>... and stays open this long before one trial call.</summary>
+    public TimeSpan BreakDuration { get; init; } = TimeSpan.FromSeconds(5);
+
+    /// <summary>Asks forwarded to one worker and not yet answered; beyond this, asks are refused (ResourceExhausted).</summary>
+    public int AskQueuePerWorker { get; init; } = 256;
+
+    /// <summary>Deadline of a forwarded ask.</summary>
+    public TimeSpan AskDeadline { get; init; } = TimeSpan.FromSeconds(30);
+
+    /// <summary>Threads for the start fibers the coordinator computes before handing out tiles.</summary>
+    public int StartFiberThreads { get; init; } = Environment.ProcessorCount;
+
+    /// <summary>Largest message accepted or sent, in bytes.</summary>
+    public int MaxMessageBytes { get; init; } = 64 << 20;
+}

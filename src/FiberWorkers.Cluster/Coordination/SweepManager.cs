@@ -1,0 +1,350 @@
+using System.Threading.Channels;
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Atlas.Stores;
+using FiberWorkers.Atlas.Sweeps;
+using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Contracts.V1;
+using Google.Protobuf;
+using Grpc.Core;
+using Serilog;
+
+namespace FiberWorkers.Cluster.Coordination;
+
+/// <summary>
+/// Runs the coordinator's sweeps: a submission is validated, recorded in the ledger (so a restarted coordinator
+/// resumes it) and run in the background by the same <see cref="SweepRunner"/> as the embedded sweep, with tiles
+/// computed by workers through the <see cref="TileDispatcher"/>; progress goes to every watcher.
+/// </summary>
+public sealed class SweepManager : IDisposable
+{
+    private readonly ISweepLedger _ledger;
+    private readonly TileDispatcher _dispatcher;
+    private readonly WorkerPool _pool;
+    private readonly AtlasCatalog _catalog;
+    private readonly CoordinatorOptions _options;
+    private readonly ILogger _log;
+    private readonly Lock _gate = new();
+    private readonly Dictionary<long, SweepRun> _runs = [];
+    private readonly CancellationTokenSource _stopping = new();
+
+    public SweepManager(ISweepLedger ledger, TileDispatcher dispatcher, WorkerPool pool, AtlasCatalog catalog, CoordinatorOptions options, ILogger log)
+    {
+        _ledger = ledger;
+        _dispatcher = dispatcher;
+        _pool = pool;
+        _catalog = catalog;
+        _options = options;
+        _log = log;
+    }
+
+    /// <summary>Family limits applied to submitted families.</summary>
+    public FamilyLimits Limits { get; init; } = FamilyLimits.Default;
+
+    /// <summary>Sweeps running in this process.</summary>
+    public int Running
+    {
+        get
+        {
+            lock (_gate)
+            {
+                return _runs.Values.Count(r => !r.Done);
+            }
+        }
+    }
+
+    /// <summary>Validates and starts (or joins) a sweep.</summary>
+    public SubmitSweepReply Submit(SubmitSweepRequest request)
+    {
+        ArgumentNullException.ThrowIfNull(request);
+        var (family, options) = Parse(request);
+        var (atlasId, sweepId) = new SweepRunner(_ledger).Begin(family, options);
+        _ledger.SaveSweepRequest(sweepId, atlasId, request.ToByteArray());
+        var started = Start(sweepId, atlasId, family, options);
+        _log.Information("sweep {SweepId} of atlas {AtlasId} ({Family}) submitted: {Options}; {Action}",
+            sweepId, atlasId, family.Name, options.CanonicalText, started ? "started" : "already running");
+        return new SubmitSweepReply { AtlasId = atlasId, SweepId = sweepId, Started = started };
+    }
+
+    /// <summary>Starts every sweep the ledger holds as unfinished (after a restart).</summary>
+    public void ResumeUnfinished()
+    {
+        foreach (var record in _ledger.UnfinishedSweepRequests())
+        {
+            try
+            {
+                var request = SubmitSweepRequest.Parser.ParseFrom(record.Request);
+                var (family, options) = Parse(request);
+                if (Start(record.SweepId, record.AtlasId, family, options))
+                {
+                    _log.Information("sweep {SweepId} of atlas {AtlasId} resumed after a restart", record.SweepId, record.AtlasId);
+                }
+            }
+            catch (Exception e) when (e is RpcException or InvalidProtocolBufferException or InputException)
+            {
+                _log.Error("sweep {SweepId} cannot be resumed: its kept request is unreadable ({Reason})", record.SweepId, e.Message);
+            }
+        }
+    }
+
+    /// <summary>Streams progress until the sweep finishes or fails.</summary>
+    public async Task WatchAsync(long sweepId, IServerStreamWriter<SweepProgressUpdate> stream, CancellationToken cancellation)
+    {
+        ArgumentNullException.ThrowIfNull(stream);
+        SweepRun? run;
+        lock (_gate)
+        {
+            _runs.TryGetValue(sweepId, out run);
+        }
+
+        if (run is null)
+        {
+            var record = _ledger.Sweep(sweepId) ?? throw new RpcException(new Status(StatusCode.NotFound, $"sweep_id: no sweep {sweepId}"));
+            if (record is { State: "committed", Version: { } version })
+            {
+                var summary = new SweepRunner(_ledger).Summarize(record.AtlasId, version);
+                await stream.WriteAsync(Final(sweepId, record.AtlasId, Conversions.ToOutcome(summary, sweepId)), cancellation).ConfigureAwait(false);
+                return;
+            }
+
+            throw new RpcException(new Status(StatusCode.FailedPrecondition, $"sweep_id: sweep {sweepId} is not running here; submit it again to resume it"));
+        }
+
+        var reader = run.Subscribe();
+        try
+        {
+            await foreach (var update in reader.ReadAllAsync(cancellation).ConfigureAwait(false))
+            {
+                update.Workers.Clear();
+                update.Workers.Add(_pool.Live().Select(w => w.ToMessage()));
+                await stream.WriteAsync(update, cancellation).ConfigureAwait(false);
+                if (update.Finished || update.Failed)
+                {
+                    return;
+                }
+            }
+        }
+        finally
+        {
+            run.Unsubscribe(reader);
+        }
+    }
+
+    /// <summary>Stops running sweeps (their finished tiles are in the ledger; a restart resumes them).</summary>
+    public void Dispose()
+    {
+        _stopping.Cancel();
+        Task[] running;
+        lock (_gate)
+        {
+            running = [.. _runs.Values.Select(r => r.Task).OfType<Task>()];
+        }
+
+        try
+        {
+            Task.WaitAll(running, TimeSpan.FromSeconds(10));
+        }
+        catch (AggregateException)
+        {
+            // Cancelled sweeps end with exceptions; they are resumed later.
+        }
+
+        _stopping.Dispose();
+    }
+
+    private (FamilyDefinition Family, SweepOptions Options) Parse(SubmitSweepRequest request)
+    {
+        RequestChecks.Settings(request.Settings, "settings");
+        RequestChecks.Id(request.Source, "source", required: false);
+        if (string.IsNullOrWhiteSpace(request.FamilyJson))
+        {
+            throw RequestChecks.Invalid("family_json", "is required (the family file's JSON text)");
+        }
+
+        var source = string.IsNullOrEmpty(request.Source) ? "submitted family" : request.Source;
+        FamilyDefinition family;
+        try
+        {
+            family = FamilyReader.Parse(request.FamilyJson, source, Limits);
+        }
+        catch (InputException e)
+        {
+            throw RequestChecks.Invalid("family_json", e.Message);
+        }
+
+        if (family.Parameters.Count == 0)
+        {
+            throw RequestChecks.Invalid("family_json", $"{source}: a sweep needs at least one parameter with a box");
+        }
+
+        try
+        {
+            return (family, Conversions.ToOptions(request.Settings, family.Parameters.Count, _options.StartFiberThreads));
+        }
+        catch (ArgumentException e)
+        {
+            throw RequestChecks.Invalid("settings", e.Message);
+        }
+    }
+
+    private bool Start(long sweepId, string atlasId, FamilyDefinition family, SweepOptions options)
+    {
+        SweepRun run;
+        lock (_gate)
+        {
+            if (_runs.TryGetValue(sweepId, out var existing) && !existing.Done)
+            {
+                return false;
+            }
+
+            run = new SweepRun(sweepId, atlasId);
+            _runs[sweepId] = run;
+        }
+
+        run.Task = Task.Factory.StartNew(() => Execute(run, family, options), _stopping.Token, TaskCreationOptions.LongRunning, TaskScheduler.Default).Unwrap();
+        return true;
+    }
+
+    private async Task Execute(SweepRun run, FamilyDefinition family, SweepOptions options)
+    {
+        var progress = new Progress(run);
+        try
+        {
+            var runner = new SweepRunner(_ledger, _dispatcher.OnMerged);
+            var summary = await runner.RunAsync(family, options, _dispatcher.ComputeAsync, progress, _stopping.Token).ConfigureAwait(false);
+            _catalog.Committed(run.AtlasId);
+            _log.Information("sweep {SweepId} committed version {Version} of atlas {AtlasId}: {Tiles} tiles, {Samples} samples, content {ContentHash}",
+                run.SweepId, summary.AtlasVersion, run.AtlasId, summary.Tiles, summary.Samples, summary.ContentHash);
+            run.Finish(Final(run.SweepId, run.AtlasId, Conversions.ToOutcome(summary, run.SweepId)));
+        }
+        catch (OperationCanceledException) when (_stopping.IsCancellationRequested)
+        {
+            run.Finish(Failed(run, "the coordinator is stopping; the sweep resumes when it restarts"));
+        }
+        catch (Exception e)
+        {
+            _log.Error("sweep {SweepId} of atlas {AtlasId} failed: {Reason}", run.SweepId, run.AtlasId, Flatten(e));
+            run.Finish(Failed(run, $"{Flatten(e)}; its finished tiles are kept: submit it again to resume"));
+        }
+    }
+
+    private static string Flatten(Exception e) => e is AggregateException aggregate && aggregate.InnerExceptions.Count > 0
+        ? string.Join("; ", aggregate.InnerExceptions.Select(Flatten).Distinct())
+        : e.Message;
+
+    private static SweepProgressUpdate Final(long sweepId, string atlasId, SweepOutcome outcome) => new()
+    {
+        SweepId = sweepId,
+        AtlasId = atlasId,
+        Stage = "done",
+        TilesDone = outcome.Tiles,
+        TilesPlanned = outcome.Tiles,
+        Samples = outcome.Samples,
+        Crossings = outcome.Crossings,
+        EtaSeconds = 0,
+        Outcome = outcome,
+        Finished = true,
+    };
+
+    private static SweepProgressUpdate Failed(SweepRun run, string reason)
+    {
+        var update = run.Latest.Clone();
+        update.Failure = reason;
+        update.Failed = true;
+        return update;
+    }
+
+    /// <summary>A sweep running in this process and its watchers.</summary>
+    private sealed class SweepRun(long sweepId, string atlasId)
+    {
+        private readonly Lock _gate = new();
+        private readonly List<Channel<SweepProgressUpdate>> _watchers = [];
+
+        public long SweepId { get; } = sweepId;
+
+        public string AtlasId { get; } = atlasId;
+
+        public Task? Task { get; set; }
+
+        public bool Done { get; private set; }
+
+        public SweepProgressUpdate Latest { get; private set; } = new() { SweepId = sweepId, AtlasId = atlasId, Stage = "queued", EtaSeconds = -1 };
+
+        public ChannelReader<SweepProgressUpdate> Subscribe()
+        {
+            // Only the newest update matters to a slow watcher; the final one is never dropped (it is the last).
+            var channel = Channel.CreateBounded<SweepProgressUpdate>(new BoundedChannelOptions(4) { FullMode = BoundedChannelFullMode.DropOldest });
+            lock (_gate)
+            {
+                channel.Writer.TryWrite(Latest.Clone());
+                if (Done)
+                {
+                    channel.Writer.TryComplete();
+                }
+                else
+                {
+                    _watchers.Add(channel);
+                }
+            }
+
+            return channel.Reader;
+        }
+
+        public void Unsubscribe(ChannelReader<SweepProgressUpdate> reader)
+        {
+            lock (_gate)
+            {
+                _watchers.RemoveAll(c => c.Reader == reader);
+            }
+        }
+
+        public void Publish(SweepProgressUpdate update)
+        {
+            lock (_gate)
+            {
+                if (Done)
+                {
+                    return;
+                }
+
+                Latest = update;
+                foreach (var watcher in _watchers)
+                {
+                    watcher.Writer.TryWrite(update.Clone());
+                }
+            }
+        }
+
+        public void Finish(SweepProgressUpdate update)
+        {
+            lock (_gate)
+            {
+                Latest = update;
+                Done = true;
+                foreach (var watcher in _watchers)
+                {
+                    watcher.Writer.TryWrite(update.Clone());
+                    watcher.Writer.TryComplete();
+                }
+
+                _watchers.Clear();
+            }
+        }
+    }
+
+    /// <summary>Turns the runner's progress reports into updates.</summary>
+    private sealed class Progress(SweepRun run) : IProgress<SweepProgress>
+    {
+        public void Report(SweepProgress value) => run.Publish(new SweepProgressUpdate
+        {
+            SweepId = run.SweepId,
+            AtlasId = run.AtlasId,
+            Stage = value.Stage,
+            TilesDone = value.TilesDone,
+            TilesPlanned = value.TilesTotal,
+            Samples = value.Samples,
+            Crossings = value.Crossings,
+            TilesPerSecond = value.TilesPerSecond,
+            EtaSeconds = value.Remaining?.TotalSeconds ?? -1,
+        });
+    }
+}

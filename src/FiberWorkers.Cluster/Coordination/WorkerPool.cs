@@ -1,0 +1,331 @@
+using FiberWorkers.Contracts.V1;
+using Grpc.Core;
+using Grpc.Net.Client;
+using Polly;
+using Polly.CircuitBreaker;
+using Polly.Timeout;
+using Serilog;
+
+namespace FiberWorkers.Cluster.Coordination;
+
+/// <summary>A tile result that fails the coordinator's checks (a worker answering garbage).</summary>
+public sealed class InvalidTileException(string message) : Exception(message);
+
+/// <summary>
+/// One registered worker as the coordinator sees it: its channel, its tile slots, and its circuit breaker and
+/// deadline (Polly). Counters are updated under the pool's lock or with interlocked operations.
+/// </summary>
+public sealed class WorkerLink : IDisposable
+{
+    private readonly CircuitBreakerStateProvider _circuit = new();
+    private readonly CancellationTokenSource _gone = new();
+    private int _tilesInFlight;
+    private int _asksInFlight;
+    private long _tilesDone;
+    private long _tilesFailed;
+
+    internal WorkerLink(string id, Uri address, int threads, CoordinatorOptions options, Func<Uri, GrpcChannel> connect)
+    {
+        Id = id;
+        Address = address;
+        Threads = threads;
+        Channel = connect(address);
+        Client = new Worker.WorkerClient(Channel);
+        LastSeen = DateTimeOffset.UtcNow;
+        TilePipeline = new ResiliencePipelineBuilder()
+            .AddCircuitBreaker(new CircuitBreakerStrategyOptions
+            {
+                FailureRatio = options.BreakFailureRatio,
+                MinimumThroughput = options.BreakMinimumThroughput,
+                SamplingDuration = options.BreakSampling,
+                BreakDuration = options.BreakDuration,
+                StateProvider = _circuit,
+                ShouldHandle = new PredicateBuilder()
+                    .Handle<RpcException>(e => e.StatusCode != StatusCode.Cancelled)
+                    .Handle<TimeoutRejectedException>()
+                    .Handle<InvalidTileException>(),
+            })
+            .AddTimeout(options.TileDeadline)
+            .Build();
+    }
+
+    public string Id { get; }
+
+    public Uri Address { get; }
+
+    public int Threads { get; }
+
+    internal GrpcChannel Channel { get; }
+
+    internal Worker.WorkerClient Client { get; }
+
+    /// <summary>Circuit breaker (outer) and the tile deadline (inner): timeouts count as failures.</summary>
+    internal ResiliencePipeline TilePipeline { get; }
+
+    public DateTimeOffset LastSeen { get; internal set; }
+
+    /// <summary>Cancelled when the worker is declared lost: its calls in flight end at once.</summary>
+    public CancellationToken Gone => _gone.Token;
+
+    public bool IsLost => _gone.IsCancellationRequested;
+
+    public CircuitState Circuit => _circuit.CircuitState;
+
+    /// <summary>Can take a tile: not lost, circuit not open, a free slot.</summary>
+    public bool Available => !IsLost && Circuit is CircuitState.Closed or CircuitState.HalfOpen && Volatile.Read(ref _tilesInFlight) < Threads;
+
+    public int TilesInFlight => Volatile.Read(ref _tilesInFlight);
+
+    public int AsksInFlight => Volatile.Read(ref _asksInFlight);
+
+    public long TilesDone => Interlocked.Read(ref _tilesDone);
+
+    public long TilesFailed => Interlocked.Read(ref _tilesFailed);
+
+    public string State => IsLost ? "lost" : Circuit is CircuitState.Open or CircuitState.Isolated ? "open-circuit" : "live";
+
+    internal bool TryTakeSlot()
+    {
+        while (true)
+        {
+            var current = Volatile.Read(ref _tilesInFlight);
+            if (current >= Threads || IsLost)
+            {
+                return false;
+            }
+
+            if (Interlocked.CompareExchange(ref _tilesInFlight, current + 1, current) == current)
+            {
+                return true;
+            }
+        }
+    }
+
+    internal void ReleaseSlot(bool succeeded)
+    {
+        Interlocked.Decrement(ref _tilesInFlight);
+        Interlocked.Increment(ref succeeded ? ref _tilesDone : ref _tilesFailed);
+    }
+
+    /// <summary>Counts an ask; false (nothing counted) when <paramref name="limit"/> asks are already waiting.</summary>
+    internal bool TryEnterAsk(int limit)
+    {
+        if (Interlocked.Increment(ref _asksInFlight) <= limit)
+        {
+            return true;
+        }
+
+        Interlocked.Decrement(ref _asksInFlight);
+        return false;
+    }
+
+    internal void ExitAsk() => Interlocked.Decrement(ref _asksInFlight);
+
+    internal void MarkLost() => _gone.Cancel();
+
+    public WorkerState ToMessage() => new()
+    {
+        WorkerId = Id,
+        Address = Address.ToString().TrimEnd('/'),
+        State = State,
+        Threads = Threads,
+        TilesInFlight = TilesInFlight,
+        TilesDone = TilesDone,
+        TilesFailed = TilesFailed,
+    };
+
+    public void Dispose()
+    {
+        _gone.Cancel();
+        _gone.Dispose();
+        Channel.Dispose();
+    }
+}
+
+/// <summary>
+/// The workers registered with the coordinator: registration, heartbeats, loss detection, and the choice of a worker
+/// for the next tile. Thread-safe.
+/// </summary>
+public sealed class WorkerPool : IDisposable
+{
+    private readonly Lock _gate = new();
+    private readonly Dictionary<string, WorkerLink> _workers = new(StringComparer.Ordinal);
+    private readonly CoordinatorOptions _options;
+    private readonly ILogger _log;
+    private readonly Func<Uri, GrpcChannel> _connect;
+    private TaskCompletionSource _changed = new(TaskCreationOptions.RunContinuationsAsynchronously);
+
+    public WorkerPool(CoordinatorOptions options, ILogger log, Func<Uri, GrpcChannel>? connect = null)
+    {
+        ArgumentNullException.ThrowIfNull(options);
+        ArgumentNullException.ThrowIfNull(log);
+        _options = options;
+        _log = log;
+        _connect = connect ?? (address => GrpcChannel.ForAddress(address, new GrpcChannelOptions
+        {
+            MaxReceiveMessageSize = options.MaxMessageBytes,
+            MaxSendMessageSize = options.MaxMessageBytes,
+        }));
+    }
+
+    /// <summary>Registers (or re-registers) a worker; a new address under a known id replaces the old link.</summary>
+    public void Register(string id, Uri address, int threads)
+    {
+        WorkerLink? replaced = null;
+        lock (_gate)
+        {
+            if (_workers.TryGetValue(id, out var known))
+            {
+                if (known.Address == address && known.Threads == threads && !known.IsLost)
+                {
+                    known.LastSeen = DateTimeOffset.UtcNow;
+                    return;
+                }
+
+                replaced = known;
+            }
+
+            _workers[id] = new WorkerLink(id, address, threads, _options, _connect);
+        }
+
+        replaced?.MarkLost();
+        replaced?.Dispose();
+        _log.Information("worker {WorkerId} registered at {WorkerAddress} with {Threads} threads", id, address, threads);
+        Pulse();
+    }
+
+    /// <summary>Records a heartbeat; false when the worker is unknown (it must register again).</summary>
+    public bool Heartbeat(string id)
+    {
+        lock (_gate)
+        {
+            if (_workers.TryGetValue(id, out var link) && !link.IsLost)
+            {
+                link.LastSeen = DateTimeOffset.UtcNow;
+                return true;
+            }
+
+            return false;
+        }
+    }
+
+    /// <summary>Declares workers silent for too long lost: their calls in flight are cancelled and their tiles retried.</summary>
+    public void SweepLost()
+    {
+        var limit = _options.Heartbeat * _options.MissedHeartbeats;
+        var now = DateTimeOffset.UtcNow;
+        List<WorkerLink> lost;
+        lock (_gate)
+        {
+            lost = [.. _workers.Values.Where(w => now - w.LastSeen > limit)];
+            foreach (var link in lost)
+            {
+                _workers.Remove(link.Id);
+            }
+        }
+
+        foreach (var link in lost)
+        {
+            _log.Warning("worker {WorkerId} at {WorkerAddress} lost: no heartbeat for {Seconds:F1} s; its {TilesInFlight} tiles in flight go to other workers",
+                link.Id, link.Address, (now - link.LastSeen).TotalSeconds, link.TilesInFlight);
+            link.MarkLost();
+            link.Dispose();
+        }
+
+        if (lost.Count > 0)
+        {
+            Pulse();
+        }
+    }
+
+    /// <summary>Removes a worker at once (it reported that it is stopping).</summary>
+    public void Remove(string id)
+    {
+        WorkerLink? link;
+        lock (_gate)
+        {
+            if (!_workers.Remove(id, out link))
+            {
+                return;
+            }
+        }
+
+        link.MarkLost();
+        link.Dispose();
+        Pulse();
+    }
+
+    /// <summary>Live workers in id order.</summary>
+    public IReadOnlyList<WorkerLink> Live()
+    {
+        lock (_gate)
+        {
+            return [.. _workers.Values.Where(w => !w.IsLost).OrderBy(w => w.Id, StringComparer.Ordinal)];
+        }
+    }
+
+    /// <summary>
+    /// Waits for a worker with a free slot and takes the slot: the one with the most free slots, preferring workers
+    /// not in <paramref name="avoid"/> (those that just failed this tile) while any other is available.
+    /// </summary>
+    public async Task<WorkerLink> AcquireAsync(IReadOnlySet<string> avoid, CancellationToken cancellation)
+    {
+        while (true)
+        {
+            Task changed;
+            lock (_gate)
+            {
+                var candidates = _workers.Values.Where(w => w.Available).ToList();
+                var preferred = candidates.Where(w => !avoid.Contains(w.Id)).ToList();
+                foreach (var link in (preferred.Count > 0 ? preferred : candidates)
+                    .OrderByDescending(w => w.Threads - w.TilesInFlight)
+                    .ThenBy(w => w.Id, StringComparer.Ordinal))
+                {
+                    if (link.TryTakeSlot())
+                    {
+                        return link;
+                    }
+                }
+
+                changed = _changed.Task;
+            }
+
+            // Woken when a slot frees or a worker joins; the timeout catches circuits that closed on their own.
+            await Task.WhenAny(changed, Task.Delay(TimeSpan.FromMilliseconds(250), cancellation)).ConfigureAwait(false);
+            cancellation.ThrowIfCancellationRequested();
+        }
+    }
+
+    /// <summary>Frees a slot taken by <see cref="AcquireAsync"/>.</summary>
+    public void Release(WorkerLink link, bool succeeded)
+    {
+        ArgumentNullException.ThrowIfNull(link);
+        link.ReleaseSlot(succeeded);
+        Pulse();
+    }
+
+    public void Dispose()
+    {
+        lock (_gate)
+        {
+            foreach (var link in _workers.Values)
+            {
+                link.Dispose();
+            }
+
+            _workers.Clear();
+        }
+    }
+
+    private void Pulse()
+    {
+        TaskCompletionSource previous;
+        lock (_gate)
+        {
+            previous = _changed;
+            _changed = new TaskCompletionSource(TaskCreationOptions.RunContinuationsAsynchronously);
+        }
+
+        previous.TrySetResult();
+    }
+}

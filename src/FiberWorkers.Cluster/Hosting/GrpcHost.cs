@@ -1,0 +1,100 @@
+using Microsoft.AspNetCore.Builder;
+using Microsoft.AspNetCore.Hosting;
+using Microsoft.AspNetCore.Hosting.Server;
+using Microsoft.AspNetCore.Hosting.Server.Features;
+using Microsoft.AspNetCore.Server.Kestrel.Core;
+using Microsoft.Extensions.DependencyInjection;
+using Microsoft.Extensions.Diagnostics.HealthChecks;
+using Microsoft.Extensions.Hosting;
+using Serilog;
+
+namespace FiberWorkers.Cluster.Hosting;
+
+/// <summary>How a gRPC server listens.</summary>
+public sealed record HostSettings
+{
+    public required ListenAddress Listen { get; init; }
+
+    /// <summary>Largest request or reply message, in bytes (shards of dense atlases run to tens of megabytes).</summary>
+    public int MaxMessageBytes { get; init; } = 64 << 20;
+
+    /// <summary>Where the server's events go.</summary>
+    public required ILogger Logger { get; init; }
+
+    /// <summary>Reported by the "ready" health service (grpc.health.v1, service name "ready"); null: always ready.</summary>
+    public Func<bool>? Ready { get; init; }
+}
+
+/// <summary>
+/// A Kestrel server with gRPC over HTTP/2, the gRPC health service (grpc.health.v1: service "" is liveness,
+/// "ready" is readiness) and server reflection. Used by both the coordinator and the worker.
+/// </summary>
+public sealed class GrpcHost : IAsyncDisposable
+{
+    private readonly WebApplication _app;
+
+    private GrpcHost(WebApplication app, Uri address)
+    {
+        _app = app;
+        Address = address;
+    }
+
+    /// <summary>The bound address, e.g. http://127.0.0.1:41234 (port 0 resolved).</summary>
+    public Uri Address { get; }
+
+    /// <summary>The host's services (the service objects registered by the caller).</summary>
+    public IServiceProvider Services => _app.Services;
+
+    /// <summary>Completes when the host stops.</summary>
+    public Task Stopped => _app.WaitForShutdownAsync();
+
+    /// <summary>Builds and starts the server; <paramref name="map"/> maps the gRPC services.</summary>
+    public static async Task<GrpcHost> StartAsync(HostSettings settings, Action<IServiceCollection> services, Action<WebApplication> map, CancellationToken cancellation = default)
+    {
+        ArgumentNullException.ThrowIfNull(settings);
+        ArgumentNullException.ThrowIfNull(services);
+        ArgumentNullException.ThrowIfNull(map);
+        var builder = WebApplication.CreateSlimBuilder(new WebApplicationOptions { Args = [], ApplicationName = "fiber" });
+        builder.Services.AddSerilog(settings.Logger, dispose: false);
+        builder.WebHost.ConfigureKestrel(kestrel =>
+        {
+            kestrel.AddServerHeader = false;
+            kestrel.Limits.MaxRequestBodySize = settings.MaxMessageBytes;
+            kestrel.Listen(settings.Listen.Address, settings.Listen.Port, endpoint => endpoint.Protocols = HttpProtocols.Http2);
+        });
+        builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = TimeSpan.FromSeconds(20));
+        builder.Services.AddGrpc(o =>
+        {
+            o.MaxReceiveMessageSize = settings.MaxMessageBytes;
+            o.MaxSendMessageSize = settings.MaxMessageBytes;
+            o.EnableDetailedErrors = false;
+        });
+        builder.Services.AddGrpcReflection();
+        var ready = settings.Ready ?? (() => true);
+        builder.Services.AddGrpcHealthChecks(o =>
+        {
+            o.UseHealthChecksCache = false;
+            o.Services.Map(string.Empty, r => r.Tags.Contains("live"));
+            o.Services.Map("ready", r => r.Tags.Contains("ready"));
+        })
+            .AddCheck("process", () => HealthCheckResult.Healthy(), ["live"])
+            .AddCheck("ready", () => ready() ? HealthCheckResult.Healthy() : HealthCheckResult.Unhealthy("not ready"), ["ready"]);
+        services(builder.Services);
+        var app = builder.Build();
+        map(app);
+        app.MapGrpcHealthChecksService();
+        app.MapGrpcReflectionService();
+        await app.StartAsync(cancellation).ConfigureAwait(false);
+        var bound = app.Services.GetRequiredService<IServer>().Features.Get<IServerAddressesFeature>()!.Addresses.First();
+        return new GrpcHost(app, new Uri(bound.Replace("[::]", "[::1]", StringComparison.Ordinal).Replace("0.0.0.0", "127.0.0.1", StringComparison.Ordinal)));
+    }
+
+    /// <summary>Stops accepting calls and lets running ones finish (up to the shutdown timeout).</summary>
+    public Task StopAsync(CancellationToken cancellation = default) => _app.StopAsync(cancellation);
+
+    public async ValueTask DisposeAsync()
+    {
+        await _app.StopAsync().ConfigureAwait(false);
+        await _app.DisposeAsync().ConfigureAwait(false);
+    }
+}

@@ -1,0 +1,238 @@
+using System.Collections.Concurrent;
+using System.Diagnostics;
+using System.Globalization;
+using FiberWorkers.Algebra.Families;
+using FiberWorkers.Atlas.Resolve;
+using FiberWorkers.Atlas.Stores;
+using FiberWorkers.Atlas.Sweeps;
+using FiberWorkers.Atlas.Tiles;
+using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Contracts.V1;
+using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.StartFibers;
+using Google.Protobuf;
+using Grpc.Core;
+using Serilog;
+
+namespace FiberWorkers.Cluster.Workers;
+
+/// <summary>
+/// What a worker does, behind its gRPC service: computes tiles with the sweep code (setups fetched from the
+/// coordinator and cached) and answers resolves from tile shards (fetched and cached, least recently used dropped).
+/// Stateless apart from caches. Tiles run on dedicated threads, so heartbeats and resolves keep flowing while all
+/// tile threads are busy.
+/// </summary>
+public sealed class WorkerRuntime
+{
+    private readonly WorkerOptions _options;
+    private readonly Coordinator.CoordinatorClient _coordinator;
+    private readonly ILogger _log;
+    private readonly SemaphoreSlim _tileSlots;
+    private readonly SemaphoreSlim _resolveSlots;
+    private readonly BoundedCache<string, SweepContext> _setups;
+    private readonly BoundedCache<(string Atlas, int Version, string Tile, bool Verify), Resolver> _shards;
+    private readonly ConcurrentDictionary<string, FamilyDefinition> _families = new(StringComparer.Ordinal);
+    private int _tilesRunning;
+    private int _resolvesWaiting;
+    private volatile bool _stopping;
+
+    public WorkerRuntime(WorkerOptions options, Coordinator.CoordinatorClient coordinator, ILogger log)
+    {
+        ArgumentNullException.ThrowIfNull(options);
+        ArgumentNullException.ThrowIfNull(coordinator);
+        ArgumentNullException.ThrowIfNull(log);
+        _options = options;
+        _coordinator = coordinator;
+        _log = log;
+        _tileSlots = new SemaphoreSlim(options.Threads, options.Threads);
+        _resolveSlots = new SemaphoreSlim(options.Threads, options.Threads);
+        _setups = new BoundedCache<string, SweepContext>(options.SetupCache);
+        _shards = new BoundedCache<(string, int, string, bool), Resolver>(options.ShardCache);
+    }
+
+    public string Id => _options.Id;
+
+    public int TilesRunning => Volatile.Read(ref _tilesRunning);
+
+    public int ResolvesWaiting => Volatile.Read(ref _resolvesWaiting);
+
+    /// <summary>Refuses new tiles from now on (Unavailable, so the coordinator gives them to another worker).</summary>
+    public void BeginStopping() => _stopping = true;
+
+    public async Task<TileOutcome> RunTileAsync(TileTask task, CancellationToken cancellation)
+    {
+        ArgumentNullException.ThrowIfNull(task);
+        RequestChecks.Id(task.FamilyHash, "family_hash");
+        RequestChecks.Settings(task.Settings, "settings");
+        var key = RequestChecks.Tile(task.TileKey, "tile_key");
+        if (_stopping)
+        {
+            throw new RpcException(new Status(StatusCode.Unavailable, $"worker {Id} is stopping"));
+        }
+
+        if (!await _tileSlots.WaitAsync(0, cancellation).ConfigureAwait(false))
+        {
+            throw new RpcException(new Status(StatusCode.ResourceExhausted, $"worker {Id}: all {_options.Threads} tile threads are busy"));
+        }
+
+        Interlocked.Increment(ref _tilesRunning);
+        try
+        {
+            var context = await _setups.GetAsync(SetupKey(task), _ => LoadSetupAsync(task, cancellation)).ConfigureAwait(false);
+            if (!key.FitsIn(context.Options.Divisions))
+            {
+                throw RequestChecks.Invalid("tile_key", $"{key} lies outside the {string.Join('x', context.Options.Divisions)} grid");
+            }
+
+            await MisbehaveAsync(cancellation).ConfigureAwait(false);
+            var clock = Stopwatch.StartNew();
+            var (result, paths) = await Task.Factory.StartNew(
+                () => TileComputer.Compute(context, key), cancellation, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
+            if (_options.Fault == "garbage")
+            {
+                result = result.Clone();
+                result.TileKey = "L0:" + string.Join(',', key.Coordinates.Select(c => c + 1));
+            }
+
+            _log.Information("tile {TileKey} of sweep {SweepId} (attempt {Attempt}) computed in {Seconds:F3} s", task.TileKey, task.SweepId, task.Attempt, clock.Elapsed.TotalSeconds);
+            return new TileOutcome { Result = result, PathsTracked = paths, Seconds = clock.Elapsed.TotalSeconds, WorkerId = Id };
+        }
+        finally
+        {
+            Interlocked.Decrement(ref _tilesRunning);
+            _tileSlots.Release();
+        }
+    }
+
+    public async Task<AskReply> ResolveAsync(ResolveRequest request, CancellationToken cancellation)
+    {
+        ArgumentNullException.ThrowIfNull(request);
+        var ask = request.Ask ?? throw RequestChecks.Invalid("ask", "is required");
+        RequestChecks.Id(ask.AtlasId, "ask.atlas_id");
+        RequestChecks.Id(ask.RequestId, "ask.request_id", required: false);
+        var tile = RequestChecks.RootTile(request.TileKey, "tile_key");
+        if (request.Version < 1)
+        {
+            throw RequestChecks.Invalid("version", $"must name a committed version (1 or more), got {request.Version}");
+        }
+
+        if (Interlocked.Increment(ref _resolvesWaiting) > _options.ResolveQueue)
+        {
+            Interlocked.Decrement(ref _resolvesWaiting);
+            throw new RpcException(new Status(StatusCode.ResourceExhausted, $"worker {Id}: {_options.ResolveQueue} resolves already waiting (the queue limit); retry later"));
+        }
+
+        var entered = false;
+        try
+        {
+            await _resolveSlots.WaitAsync(cancellation).ConfigureAwait(false);
+            entered = true;
+            Interlocked.Decrement(ref _resolvesWaiting);
+            var resolver = await _shards.GetAsync((ask.AtlasId, request.Version, tile.ToString(), ask.Verify), k => LoadShardAsync(k.Atlas, k.Version, k.Tile, k.Verify, cancellation)).ConfigureAwait(false);
+            var point = RequestChecks.Point(ask.Point, resolver.Samples.Dimension, "ask.point");
+            var answer = resolver.Ask(point);
+            return Conversions.ToReply(answer, ask.RequestId, ask.AtlasId, Id, tile.ToString());
+        }
+        finally
+        {
+            if (entered)
+            {
+                _resolveSlots.Release();
+            }
+            else
+            {
+                Interlocked.Decrement(ref _resolvesWaiting);
+            }
+        }
+    }
+
+    private static string SetupKey(TileTask task) => $"{task.FamilyHash}|{task.Settings}";
+
+    private async Task<SweepContext> LoadSetupAsync(TileTask task, CancellationToken cancellation)
+    {
+        var setup = await _coordinator.FetchSweepSetupAsync(new SweepSetupRequest { FamilyHash = task.FamilyHash, Settings = task.Settings }, cancellationToken: cancellation).ConfigureAwait(false);
+        var family = Family(setup.FamilyJson, task.FamilyHash);
+        SweepOptions options;
+        try
+        {
+            options = Conversions.ToOptions(setup.Settings, family.Parameters.Count);
+        }
+        catch (ArgumentException e)
+        {
+            throw RequestChecks.Invalid("settings", e.Message);
+        }
+
+        var fibers = new Dictionary<string, StartFiber>(StringComparer.Ordinal)
+        {
+            ["family"] = Fiber(setup.FamilyStart, "family", family.ContentHash),
+            ["folds"] = Fiber(setup.FoldStart, "folds", SweepContext.FoldHash(family.ContentHash, options)),
+            ["passages"] = Fiber(setup.PassageStart, "passages", SweepContext.PassageHash(family.ContentHash, options)),
+        };
+        _log.Information("sweep setup for family {FamilyHash} loaded ({Options})", task.FamilyHash, options.CanonicalText);
+        return SweepContext.Create(family, options, kind => fibers[kind]);
+    }
+
+    private async Task<Resolver> LoadShardAsync(string atlasId, int version, string tile, bool verify, CancellationToken cancellation)
+    {
+        var shard = await _coordinator.FetchShardAsync(new ShardRequest { AtlasId = atlasId, Version = version, TileKey = tile }, cancellationToken: cancellation).ConfigureAwait(false);
+        var family = Family(shard.FamilyJson, shard.FamilyHash);
+        var start = Fiber(shard.StartFiber, "family", family.ContentHash);
+        var info = new AtlasVersionInfo(shard.Version, null, "shard", DateTimeOffset.UnixEpoch, string.Empty, shard.ContentHash, "{}");
+        var snapshot = AtlasSnapshot.FromTiles(atlasId, family, info, [.. shard.Tiles]);
+        var solver = new FiberSolver(family.System, SolveOptions.Default with { MaxDegreeOfParallelism = 1 });
+        _log.Information("shard {TileKey} of atlas {AtlasId} version {Version} loaded: {Tiles} tiles, {Samples} samples",
+            tile, atlasId, version, shard.Tiles.Count, snapshot.Samples.Count);
+        return new Resolver(snapshot, solver, start, options: ResolveOptions.Default with { VerifyFull = verify });
+    }
+
+    private FamilyDefinition Family(string json, string expectedHash)
+    {
+        if (_families.TryGetValue(expectedHash, out var known))
+        {
+            return known;
+        }
+
+        FamilyDefinition family;
+        try
+        {
+            family = FamilyReader.Parse(json, "the family sent by the coordinator");
+        }
+        catch (InputException e)
+        {
+            throw new RpcException(new Status(StatusCode.DataLoss, e.Message));
+        }
+
+        if (family.ContentHash != expectedHash)
+        {
+            throw new RpcException(new Status(StatusCode.DataLoss, $"the coordinator sent family {family.ContentHash} for {expectedHash}"));
+        }
+
+        return _families.GetOrAdd(expectedHash, family);
+    }
+
+    private static StartFiber Fiber(ByteString bytes, string kind, string expectedHash)
+    {
+        try
+        {
+            return StartFiberFile.Deserialize(bytes.Span, $"the {kind} start fiber sent by the coordinator", expectedHash);
+        }
+        catch (InputException e)
+        {
+            throw new RpcException(new Status(StatusCode.DataLoss, e.Message));
+        }
+    }
+
+    private async Task MisbehaveAsync(CancellationToken cancellation)
+    {
+        switch (_options.Fault)
+        {
+            case "hang":
+                await Task.Delay(Timeout.Infinite, cancellation).ConfigureAwait(false);
+                break;
+            case { } fault when fault.StartsWith("slow:", StringComparison.Ordinal)
+                && int.TryParse(fault.AsSpan(5), NumberStyles.None, CultureInfo.InvariantCulture, out var milliseconds):
+                await Task.Delay(milliseconds, cancellation).ConfigureAwait(false);
+                break;
+        }
+    }
+}

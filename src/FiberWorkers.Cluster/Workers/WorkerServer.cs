@@ -1,0 +1,88 @@
+using FiberWorkers.Cluster.Hosting;
+using FiberWorkers.Contracts.V1;
+using Grpc.Net.Client;
+using Microsoft.AspNetCore.Builder;
+using Microsoft.Extensions.DependencyInjection;
+using Serilog;
+
+namespace FiberWorkers.Cluster.Workers;
+
+/// <summary>A running worker: its gRPC service and the agent that keeps it registered with the coordinator.</summary>
+public sealed class WorkerServer : IAsyncDisposable
+{
+    private readonly GrpcHost _host;
+    private readonly GrpcChannel _channel;
+    private readonly WorkerRuntime _runtime;
+    private readonly CancellationTokenSource _stop = new();
+    private readonly Task _agentTask;
+    private readonly ILogger _log;
+
+    private WorkerServer(GrpcHost host, GrpcChannel channel, WorkerRuntime runtime, WorkerAgent agent, ILogger log)
+    {
+        _host = host;
+        _channel = channel;
+        _runtime = runtime;
+        _log = log;
+        Agent = agent;
+        _agentTask = agent.RunAsync(_stop.Token);
+    }
+
+    public Uri Address => _host.Address;
+
+    public string Id => _runtime.Id;
+
+    public WorkerAgent Agent { get; }
+
+    /// <summary>Completes when the host stops (for example on SIGTERM).</summary>
+    public Task Stopped => _host.Stopped;
+
+    public static async Task<WorkerServer> StartAsync(WorkerOptions options, ListenAddress listen, ILogger log, CancellationToken cancellation = default)
+    {
+        ArgumentNullException.ThrowIfNull(options);
+        ArgumentNullException.ThrowIfNull(listen);
+        ArgumentNullException.ThrowIfNull(log);
+        var channel = GrpcChannel.ForAddress(options.Coordinator, new GrpcChannelOptions
+        {
+            MaxReceiveMessageSize = options.MaxMessageBytes,
+            MaxSendMessageSize = options.MaxMessageBytes,
+        });
+        var coordinator = new Coordinator.CoordinatorClient(channel);
+        var runtime = new WorkerRuntime(options, coordinator, log);
+        WorkerAgent? agent = null;
+        var host = await GrpcHost.StartAsync(
+            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, Ready = () => agent?.Registered == true },
+            services => services.AddSingleton(runtime),
+            app => app.MapGrpcService<WorkerService>(),
+            cancellation).ConfigureAwait(false);
+        var advertise = options.Advertise ?? host.Address;
+        agent = new WorkerAgent(coordinator, runtime, advertise, options.Threads, log);
+        log.Information("worker {WorkerId} listening on {Address} with {Threads} threads; coordinator {Coordinator}",
+            runtime.Id, host.Address.ToString().TrimEnd('/'), options.Threads, options.Coordinator.ToString().TrimEnd('/'));
+        return new WorkerServer(host, channel, runtime, agent, log);
+    }
+
+    /// <summary>Refuses new tiles; tiles and resolves in flight finish while the host shuts down.</summary>
+    public void BeginStopping()
+    {
+        _runtime.BeginStopping();
+        _log.Information("worker {WorkerId} stopping: no new tiles; {Running} tiles in flight finish first", _runtime.Id, _runtime.TilesRunning);
+    }
+
+    public async ValueTask DisposeAsync()
+    {
+        _runtime.BeginStopping();
+        await _host.DisposeAsync().ConfigureAwait(false);
+        await _stop.CancelAsync().ConfigureAwait(false);
+        try
+        {
+            await _agentTask.ConfigureAwait(false);
+        }
+        catch (OperationCanceledException)
+        {
+            // Stopped on purpose.
+        }
+
+        _channel.Dispose();
+        _stop.Dispose();
+    }
+}
