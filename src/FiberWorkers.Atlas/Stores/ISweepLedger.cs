@@ -9,6 +9,7 @@ public interface ISweepLedger : IAtlasStore
 {
     /// <summary>
     /// Keeps the request that started a sweep (an encoded <c>SubmitSweepRequest</c>); the first write for a sweep wins.
+    /// The sweep must exist (<see cref="IAtlasStore.BeginOrResumeSweep"/>) and belong to <paramref name="atlasId"/>.
     /// </summary>
     void SaveSweepRequest(long sweepId, string atlasId, byte[] request);
 
@@ -22,9 +23,17 @@ public interface ISweepLedger : IAtlasStore
     /// Stores a tile result (once per content hash) and records it in the sweep, in one transaction, unless the sweep
     /// already holds a result for that tile key: then nothing changes. Returns true when the tile was merged now.
     /// </summary>
+    /// <remarks>
+    /// Of concurrent calls for one (sweep, tile key), exactly one returns true, whatever hashes they carry. A committed
+    /// sweep takes no more tiles (false, nothing changes); an unknown sweep is an <see cref="InvalidOperationException"/>,
+    /// and a hash that is not the payload's SHA-256 an <see cref="ArgumentException"/>.
+    /// </remarks>
     bool MergeTile(long sweepId, string tileKey, string tileHash, byte[] payload);
 
-    /// <summary>Appends one attempt at a tile.</summary>
+    /// <summary>
+    /// Appends one attempt at a tile. The start time is kept in UTC to the microsecond; an unknown sweep is an
+    /// <see cref="InvalidOperationException"/>, an outcome outside the list below an <see cref="ArgumentException"/>.
+    /// </summary>
     void RecordAttempt(TileAttempt attempt);
 
     /// <summary>Every attempt recorded for a sweep, in the order recorded.</summary>
