@@ -67,6 +67,58 @@ internal static class FamilyJsonShape
         }
     }
 
+    /// <summary>
+    /// Reports every \u escape that encodes half of a UTF-16 surrogate pair (\ud800 without its low half, or a low
+    /// half alone), at its line and character column. The JSON reader accepts such escapes, but no string can hold
+    /// them as text and reading one throws; so this runs on the (already valid) JSON text before any string is read.
+    /// </summary>
+    public static void CheckSurrogateEscapes(string text, string source, List<InputProblem> problems)
+    {
+        var line = 1;
+        var lineStart = 0;
+        var inString = false;
+        for (var i = 0; i < text.Length; i++)
+        {
+            var c = text[i];
+            if (c == '\n')
+            {
+                line++;
+                lineStart = i + 1;
+            }
+            else if (c == '"')
+            {
+                inString = !inString;
+            }
+            else if (inString && c == '\\')
+            {
+                // Valid JSON: an escape is followed by one character, or by u and four hex digits.
+                if (text[i + 1] != 'u')
+                {
+                    i++;
+                    continue;
+                }
+
+                var unit = (char)int.Parse(text.AsSpan(i + 2, 4), NumberStyles.AllowHexSpecifier, CultureInfo.InvariantCulture);
+                if (char.IsHighSurrogate(unit) && i + 11 < text.Length && text[i + 6] == '\\' && text[i + 7] == 'u'
+                    && char.IsLowSurrogate((char)int.Parse(text.AsSpan(i + 8, 4), NumberStyles.AllowHexSpecifier, CultureInfo.InvariantCulture)))
+                {
+                    i += 11;
+                    continue;
+                }
+
+                if (char.IsSurrogate(unit))
+                {
+                    problems.Add(new InputProblem(
+                        source,
+                        string.Create(CultureInfo.InvariantCulture, $"line {line}, column {i - lineStart + 1}"),
+                        $"the escape {text.AsSpan(i, 6)} is half of a UTF-16 surrogate pair; strings must be valid Unicode"));
+                }
+
+                i += 5;
+            }
+        }
+    }
+
     private static HashSet<string> CheckFields(
         JsonElement element, string path, string[] known, string[] aliases, string source, List<InputProblem> problems)
     {

@@ -92,6 +92,8 @@ public static partial class FamilyReader
         using (document)
         {
             var problems = new List<InputProblem>();
+            FamilyJsonShape.CheckSurrogateEscapes(text, source, problems);
+            ThrowIfAny(problems);
             FamilyJsonShape.Check(document.RootElement, source, problems);
             ThrowIfAny(problems);
         }
