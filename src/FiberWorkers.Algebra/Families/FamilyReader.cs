@@ -226,12 +226,14 @@ public static partial class FamilyReader
         }
 
         var constants = new Dictionary<string, double>(StringComparer.Ordinal);
+        var constantsFinite = true;
         foreach (var (name, value) in message.Constants)
         {
             Name(name, "constant", $"constants.{Shorten(name)}");
             if (!double.IsFinite(value))
             {
                 Problem($"constants.{Shorten(name)}", $"NaN or infinite numbers are not allowed, found {value}");
+                constantsFinite = false;
             }
 
             constants[name] = value;
@@ -245,8 +247,9 @@ public static partial class FamilyReader
                 + "a family needs as many equations as unknowns");
         }
 
-        // Box and count problems do not stop the equations from being checked; broken names do.
-        if (!namesValid)
+        // Box and count problems do not stop the equations from being checked; broken names do, and so do
+        // non-finite constants (every equation using one would be reported again as overflowing).
+        if (!namesValid || !constantsFinite)
         {
             ThrowIfAny(problems);
         }

@@ -97,16 +97,32 @@ internal sealed class PolynomialBuilder
     {
         if (binary.Operator == BinaryOperator.Divide)
         {
-            return left.Scale(1.0 / ConstantDenominator(binary));
+            return Finite(binary.Column, left.Scale(1.0 / ConstantDenominator(binary)));
         }
 
         var right = Build(binary.Right);
         return binary.Operator switch
         {
-            BinaryOperator.Add => left.Add(right),
-            BinaryOperator.Subtract => left.Subtract(right),
+            BinaryOperator.Add => Finite(binary.Column, left.Add(right)),
+            BinaryOperator.Subtract => Finite(binary.Column, left.Subtract(right)),
             _ => Checked(binary.Column, () => left.Multiply(right, _limits.MaxTerms)),
         };
+    }
+
+    // Finite numbers can combine into infinite coefficients (1e300 * 1e300, 1e308 + 1e308); a family holding one
+    // evaluates to infinity or NaN everywhere, so the operation that overflows is reported at its column.
+    private static Polynomial Finite(int column, Polynomial result)
+    {
+        for (var t = 0; t < result.TermCount; t++)
+        {
+            if (!double.IsFinite(result.CoefficientOf(t)))
+            {
+                throw new ExpressionSyntaxException(
+                    column, $"a coefficient overflows double precision here (it becomes {result.CoefficientOf(t)}); rescale the equation or its constants");
+            }
+        }
+
+        return result;
     }
 
     private double ConstantDenominator(BinaryNode division)
@@ -187,6 +203,6 @@ internal sealed class PolynomialBuilder
                 column, $"the degree in the parameters reaches {parameterDegree}, above the limit {_limits.MaxDegree}");
         }
 
-        return result;
+        return Finite(column, result);
     }
 }
