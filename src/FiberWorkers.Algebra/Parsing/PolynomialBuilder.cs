@@ -59,7 +59,7 @@ internal sealed class PolynomialBuilder
                 }
 
                 throw new ExpressionSyntaxException(
-                    name.Column, $"unknown name '{name.Name}'{NameSuggester.Hint(name.Name, KnownNames)}");
+                    name.Column, $"unknown name '{Shorten(name.Name)}'{NameSuggester.Hint(name.Name, KnownNames)}");
             case NegateNode negate:
                 return Build(negate.Operand).Negate();
             case PowerNode power:
@@ -108,6 +108,8 @@ internal sealed class PolynomialBuilder
             _ => Checked(binary.Column, () => left.Multiply(right, _limits.MaxTerms)),
         };
     }
+
+    private static string Shorten(string text) => text.Length <= 40 ? text : string.Concat(text.AsSpan(0, 37), "...");
 
     // Finite numbers can combine into infinite coefficients (1e300 * 1e300, 1e308 + 1e308); a family holding one
     // evaluates to infinity or NaN everywhere, so the operation that overflows is reported at its column.
