@@ -33,6 +33,12 @@ public sealed record FamilyLimits
     /// <summary>Most terms of one equation after expansion. Default 50,000.</summary>
     public int MaxTerms { get; init; } = 50_000;
 
+    /// <summary>
+    /// Most term operations spent expanding all equations of a family (multiplying an m-term by an n-term polynomial
+    /// costs m·n, adding them m + n), about a second of work. Default 5,000,000.
+    /// </summary>
+    public long MaxExpansionWork { get; init; } = 5_000_000;
+
     /// <summary>Longest name of an unknown, parameter or constant, in characters. Default 64.</summary>
     public int MaxNameLength { get; init; } = 64;
 }

@@ -285,7 +285,7 @@ public static partial class FamilyReader
                 Problem($"{location}, column {e.Column}", e.Message);
             }
 
-            if (problems.Count >= MaxProblems)
+            if (problems.Count >= MaxProblems || builder.WorkExhausted)
             {
                 break;
             }

@@ -15,6 +15,7 @@ internal sealed class PolynomialBuilder
     private readonly int _variableCount;
     private readonly int _unknownCount;
     private readonly FamilyLimits _limits;
+    private long _work;
 
     public PolynomialBuilder(
         IReadOnlyList<string> unknowns, IReadOnlyList<string> parameters, IReadOnlyDictionary<string, double> constants, FamilyLimits limits)
@@ -37,6 +38,15 @@ internal sealed class PolynomialBuilder
         _variableCount = unknowns.Count + parameters.Count;
         _limits = limits;
     }
+
+    /// <summary>
+    /// Term operations spent so far on all equations built with this builder (a product of an m-term and an n-term
+    /// polynomial costs m·n, a sum m + n), checked against <see cref="FamilyLimits.MaxExpansionWork"/>.
+    /// </summary>
+    public long Work => _work;
+
+    /// <summary>True once <see cref="Work"/> has passed the limit: every further equation would fail at once.</summary>
+    public bool WorkExhausted => _work > _limits.MaxExpansionWork;
 
     /// <summary>All names an equation may use, for suggestions.</summary>
     public IEnumerable<string> KnownNames => _variableIndex.Keys.Concat(_constants.Keys);
@@ -61,9 +71,11 @@ internal sealed class PolynomialBuilder
                 throw new ExpressionSyntaxException(
                     name.Column, $"unknown name '{Shorten(name.Name)}'{NameSuggester.Hint(name.Name, KnownNames)}");
             case NegateNode negate:
-                return Build(negate.Operand).Negate();
+                var operand = Build(negate.Operand);
+                Charge(negate.Column, operand.TermCount);
+                return operand.Negate();
             case PowerNode power:
-                return Checked(power.Column, () => Build(power.Base).Power(power.Exponent, _limits.MaxTerms));
+                return Power(power.Column, Build(power.Base), power.Exponent);
             case BinaryNode binary:
                 return BuildChain(binary);
             default:
@@ -97,16 +109,62 @@ internal sealed class PolynomialBuilder
     {
         if (binary.Operator == BinaryOperator.Divide)
         {
-            return Finite(binary.Column, left.Scale(1.0 / ConstantDenominator(binary)));
+            var denominator = ConstantDenominator(binary);
+            Charge(binary.Column, left.TermCount);
+            return Finite(binary.Column, left.Scale(1.0 / denominator));
         }
 
         var right = Build(binary.Right);
-        return binary.Operator switch
+        if (binary.Operator == BinaryOperator.Multiply)
         {
-            BinaryOperator.Add => Finite(binary.Column, left.Add(right)),
-            BinaryOperator.Subtract => Finite(binary.Column, left.Subtract(right)),
-            _ => Checked(binary.Column, () => left.Multiply(right, _limits.MaxTerms)),
-        };
+            return Multiply(binary.Column, left, right);
+        }
+
+        Charge(binary.Column, (long)left.TermCount + right.TermCount);
+        return Finite(binary.Column, binary.Operator == BinaryOperator.Add ? left.Add(right) : left.Subtract(right));
+    }
+
+    private Polynomial Multiply(int column, Polynomial left, Polynomial right)
+    {
+        var product = Checked(column, () => left.Multiply(right, _limits.MaxTerms));
+        Charge(column, (long)left.TermCount * right.TermCount);
+        return product;
+    }
+
+    // Repeated squaring in the same order as Polynomial.Power (so the coefficients are the same to the last bit),
+    // one multiplication at a time so that each is charged to the work limit and checked against the others.
+    private Polynomial Power(int column, Polynomial baseValue, int exponent)
+    {
+        var result = Polynomial.Constant(_variableCount, 1.0);
+        var square = baseValue;
+        while (exponent > 0)
+        {
+            if ((exponent & 1) == 1)
+            {
+                result = Multiply(column, result, square);
+            }
+
+            exponent >>= 1;
+            if (exponent > 0)
+            {
+                square = Multiply(column, square, square);
+            }
+        }
+
+        return result;
+    }
+
+    // Every limit on one equation's size still lets sums and products of large intermediate polynomials repeat
+    // (about 0.1 s of expansion per hundred characters here, hours for a file under the size limit), so the work
+    // of the whole family is bounded as well.
+    private void Charge(int column, long work)
+    {
+        _work += work;
+        if (WorkExhausted)
+        {
+            throw new ExpressionSyntaxException(
+                column, $"expanding the equations takes more than {_limits.MaxExpansionWork} term operations (limit)");
+        }
     }
 
     private static string Shorten(string text) => text.Length <= 40 ? text : string.Concat(text.AsSpan(0, 37), "...");
