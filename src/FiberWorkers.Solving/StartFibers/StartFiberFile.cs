@@ -18,6 +18,8 @@ public static class StartFiberFile
     /// <summary>The current format version.</summary>
     public const int Version = 1;
 
+    private static readonly UTF8Encoding StrictUtf8 = new(encoderShouldEmitUTF8Identifier: false, throwOnInvalidBytes: true);
+
     /// <summary>Writes <paramref name="fiber"/> to <paramref name="path"/> (atomically: a temporary file then a rename).</summary>
     public static void Save(StartFiber fiber, string path)
     {
@@ -88,6 +90,16 @@ public static class StartFiberFile
     /// <summary>Parses start-fiber bytes; <paramref name="source"/> names them in errors.</summary>
     public static StartFiber Deserialize(ReadOnlySpan<byte> bytes, string source, string? expectedFamilyHash = null)
     {
+        // The JSON reader checks UTF-8 only when a string is read (and then throws a bare InvalidOperationException).
+        try
+        {
+            _ = StrictUtf8.GetCharCount(bytes);
+        }
+        catch (DecoderFallbackException e)
+        {
+            throw new InputException(source, $"byte {e.Index + 1}", "not a start fiber (the file is not valid UTF-8)");
+        }
+
         JsonDocument document;
         try
         {
@@ -146,7 +158,7 @@ public static class StartFiberFile
                 throw new InputException(source, "unknowns", "expected an array of names");
             }
 
-            var names = unknowns.EnumerateArray().Select(e => e.ValueKind == JsonValueKind.String ? e.GetString()!
+            var names = unknowns.EnumerateArray().Select((e, i) => e.ValueKind == JsonValueKind.String ? Text(e, source, $"unknowns[{i}]")
                 : throw new InputException(source, "unknowns", "expected an array of names")).ToArray();
             var parameters = ReadVector(Required(root, "parameters", source), source, "parameters", -1);
             var solutionsElement = Required(root, "solutions", source);
@@ -218,7 +230,20 @@ public static class StartFiberFile
     private static string String(JsonElement parent, string name, string source)
     {
         var value = Required(parent, name, source);
-        return value.ValueKind == JsonValueKind.String ? value.GetString()! : throw new InputException(source, name, "expected a string");
+        return value.ValueKind == JsonValueKind.String ? Text(value, source, name) : throw new InputException(source, name, "expected a string");
+    }
+
+    /// <summary>A string value; an escape of half a UTF-16 surrogate pair (\ud800 alone), which no string can hold, is an input error.</summary>
+    private static string Text(JsonElement value, string source, string location)
+    {
+        try
+        {
+            return value.GetString()!;
+        }
+        catch (InvalidOperationException)
+        {
+            throw new InputException(source, location, "the string holds half of a UTF-16 surrogate pair (an escape such as \\ud800 alone)");
+        }
     }
 
     /// <summary>The 1-based character column of byte offset <paramref name="bytesInLine"/> in 0-based line <paramref name="line"/>.</summary>
