@@ -261,6 +261,7 @@ public sealed class SqliteAtlasStore : ISweepLedger
         AtlasStoreRules.CheckTile(tileKey, tileHash, payload);
         lock (_gate)
         {
+            _ = SweepRowUnlocked(sweepId, null) ?? throw NoSweep(sweepId);
             using var transaction = _connection.BeginTransaction();
             Execute("INSERT OR IGNORE INTO tiles (tile_hash, payload) VALUES ($h, $p)", transaction, ("$h", tileHash), ("$p", payload));
             Execute(
