@@ -6,7 +6,8 @@ namespace FiberWorkers.Cli;
 
 /// <summary>
 /// Builds the <c>fiber</c> command tree and runs it with the project's exit codes:
-/// 0 success, 1 invalid input (the message names file and place), 2 bad command usage, 3 internal error.
+/// 0 success, 1 invalid input (the message names file and place), 2 bad command usage, 3 internal error,
+/// 4 a cluster service refused or could not be reached.
 /// </summary>
 internal static class CommandLine
 {
@@ -14,6 +15,7 @@ internal static class CommandLine
     public const int InvalidInput = 1;
     public const int BadUsage = 2;
     public const int InternalError = 3;
+    public const int ServiceError = 4;
 
     public static RootCommand Build(TextWriter output, TextWriter error)
     {
@@ -31,6 +33,7 @@ internal static class CommandLine
         root.Subcommands.Add(StudyCommand.Create(output, error));
         root.Subcommands.Add(AskCommand.Create(output, error));
         root.Subcommands.Add(BenchCommand.Create(output));
+        root.Subcommands.Add(ServeCommand.Create(error));
         return root;
     }
 
@@ -51,7 +54,16 @@ internal static class CommandLine
 
         try
         {
-            return await parse.InvokeAsync(new InvocationConfiguration { EnableDefaultExceptionHandler = false, Output = output, Error = error });
+            // Servers stop on SIGTERM/Ctrl+C through their host, which lets calls in flight finish; the parser's own
+            // handler would end the process two seconds after the signal.
+            var serving = args.Length > 0 && args[0] == "serve";
+            var configuration = new InvocationConfiguration { EnableDefaultExceptionHandler = false, Output = output, Error = error };
+            if (serving)
+            {
+                configuration.ProcessTerminationTimeout = null;
+            }
+
+            return await parse.InvokeAsync(configuration);
         }
         catch (UsageException e)
         {
@@ -62,6 +74,29 @@ internal static class CommandLine
         {
             await error.WriteLineAsync(e.Message);
             return InvalidInput;
+        }
+        catch (ListenException)
+        {
+            return InvalidInput;
+        }
+        catch (Grpc.Core.RpcException e) when (e.StatusCode == Grpc.Core.StatusCode.Cancelled)
+        {
+            await error.WriteLineAsync("fiber: cancelled");
+            return InvalidInput;
+        }
+        catch (Grpc.Core.RpcException e)
+        {
+            var detail = string.IsNullOrEmpty(e.Status.Detail) ? e.StatusCode.ToString() : e.Status.Detail;
+            if (e.StatusCode is Grpc.Core.StatusCode.InvalidArgument or Grpc.Core.StatusCode.NotFound or Grpc.Core.StatusCode.FailedPrecondition or Grpc.Core.StatusCode.OutOfRange)
+            {
+                await error.WriteLineAsync($"fiber: the service refused the request: {detail}");
+                return InvalidInput;
+            }
+
+            await error.WriteLineAsync(e.StatusCode == Grpc.Core.StatusCode.Unavailable && e.Status.DebugException is not null
+                ? $"fiber: cannot reach the service ({e.Status.DebugException.Message})"
+                : $"fiber: the service answered {e.StatusCode}: {detail}");
+            return ServiceError;
         }
         catch (OperationCanceledException)
         {

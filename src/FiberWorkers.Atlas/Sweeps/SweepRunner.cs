@@ -159,6 +159,7 @@ public sealed class SweepRunner
         IProgress<SweepProgress>? progress, string stage, RemoteTileSource? remote, CancellationToken cancellation)
     {
         var missing = keys.Where(k => !results.ContainsKey(k.ToString())).ToList();
+        progress?.Report(new SweepProgress(stage, results.Count, state.Planned, state.Samples, state.Crossings, 0, null));
         var gate = new Lock();
         void Keep(TileKey key, TileResult result, long paths)
         {

@@ -12,8 +12,11 @@ namespace FiberWorkers.Atlas.Sweeps;
 /// </summary>
 public static class TileComputer
 {
-    /// <summary>The tile's result and the number of paths tracked for it (work done, not content).</summary>
-    public static (TileResult Result, long PathsTracked) Compute(SweepContext context, TileKey key)
+    /// <summary>
+    /// The tile's result and the number of paths tracked for it (work done, not content). <paramref name="cancellation"/>
+    /// is checked before each line (a worker whose caller gave up frees its thread).
+    /// </summary>
+    public static (TileResult Result, long PathsTracked) Compute(SweepContext context, TileKey key, CancellationToken cancellation = default)
     {
         ArgumentNullException.ThrowIfNull(context);
         var options = context.Options;
@@ -46,6 +49,7 @@ public static class TileComputer
         long paths = 0;
         for (var line = 0; line < options.LinesPerTile; line++)
         {
+            cancellation.ThrowIfCancellationRequested();
             var origin = new double[m];
             var direction = new double[m];
             var unit = new double[m];

@@ -19,7 +19,10 @@ internal static class AskCommand
 {
     public static Command Create(TextWriter output, TextWriter error)
     {
-        var atlas = new AtlasArguments();
+        var atlas = new AtlasArguments(fileOptional: true);
+        var coordinator = new Option<string?>("--coordinator") { Description = "Ask a cluster instead of a file: the coordinator's address, e.g. http://127.0.0.1:7400." };
+        var atlasName = new Option<string?>("--atlas") { Description = "With --coordinator: the atlas id (see 'fiber sweep --json' or 'fiber atlas --coordinator')." };
+        var direct = new Option<bool>("--direct") { Description = "With --coordinator: send the ask straight to the worker the coordinator would pick." };
         var choice = new ClassifierChoice();
         var at = new Option<string?>("--at") { Description = "One parameter point, e.g. P2=0.3,P3=-0.1,P4=0.2." };
         var points = new Option<string?>("--points") { Description = "A CSV file of points: a header with the parameter names, one point per row." };
@@ -32,12 +35,12 @@ internal static class AskCommand
         var command = new Command("ask", "The real solutions at points, from an atlas: real-only tracking from the nearest solved sample, certified.");
         atlas.AddTo(command);
         choice.AddTo(command);
-        foreach (var option in new Option[] { at, points, outFile, json, verify, learn, version })
+        foreach (var option in new Option[] { at, points, outFile, json, verify, learn, version, coordinator, atlasName, direct })
         {
             command.Options.Add(option);
         }
 
-        command.SetAction(parse =>
+        command.SetAction(async (parse, cancellation) =>
         {
             var single = parse.GetValue(at);
             var batch = parse.GetValue(points);
@@ -49,6 +52,28 @@ internal static class AskCommand
             if (batch is not null && parse.GetValue(outFile) is null)
             {
                 throw new UsageException("--points needs --out answers.csv or answers.json");
+            }
+
+            if (parse.GetValue(coordinator) is { } remote)
+            {
+                if (parse.GetValue(atlas.File) is not null || parse.GetValue(atlasName) is null)
+                {
+                    throw new UsageException("with --coordinator, name the atlas with --atlas ATLAS_ID instead of giving a file");
+                }
+
+                if (single is null || parse.GetValue(learn) || parse.GetValue(choice.Model) != "nn1")
+                {
+                    throw new UsageException("with --coordinator, ask one point with --at (batches, --learn and --model work on atlas files)");
+                }
+
+                return await ClusterAsk.RunAsync(
+                    ServeCommand.Url(remote, "--coordinator"), parse.GetValue(atlasName)!, parse.GetValue(version) ?? 0, single, parse.GetValue(verify) == "full",
+                    parse.GetValue(direct), parse.GetValue(json), output, cancellation).ConfigureAwait(false);
+            }
+
+            if (parse.GetValue(atlas.File) is null)
+            {
+                throw new UsageException("give the atlas FILE (or --coordinator URL --atlas ATLAS_ID)");
             }
 
             var source = Path.GetFileName(parse.GetValue(atlas.File)!);

@@ -7,7 +7,16 @@ namespace FiberWorkers.Cli.Commands;
 /// <summary>The FILE argument and the --atlas-id option shared by every command that reads an atlas file.</summary>
 internal sealed class AtlasArguments
 {
-    public Argument<string> File { get; } = new("FILE") { Description = "The atlas file (written by 'fiber sweep')." };
+    public AtlasArguments(bool fileOptional = false)
+    {
+        File = new Argument<string>("FILE") { Description = "The atlas file (written by 'fiber sweep')." };
+        if (fileOptional)
+        {
+            File.Arity = ArgumentArity.ZeroOrOne;
+        }
+    }
+
+    public Argument<string> File { get; }
 
     public Option<string?> AtlasId { get; } = new("--atlas-id")
     {

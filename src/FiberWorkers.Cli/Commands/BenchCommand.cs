@@ -3,6 +3,7 @@ using System.Diagnostics;
 using System.Numerics;
 using System.Text.Json;
 using FiberWorkers.Algebra.Families;
+using FiberWorkers.Atlas.Sweeps;
 using FiberWorkers.Cli.Examples;
 using FiberWorkers.Cli.Output;
 using FiberWorkers.Solving.Fibers;
@@ -18,6 +19,103 @@ internal static class BenchCommand
         var command = new Command("bench", "Measure solver throughput; prints JSON.");
         command.Subcommands.Add(CreateSolve(output));
         command.Subcommands.Add(CreateResolve(output));
+        command.Subcommands.Add(CreateCluster(output));
+        command.Subcommands.Add(CreateAsk(output));
+        return command;
+    }
+
+    private static Command CreateCluster(TextWriter output)
+    {
+        var example = new Option<string>("--example") { Description = "The bundled family to sweep.", DefaultValueFactory = _ => "reaction-switch" };
+        var tiles = new Option<string>("--tiles") { Description = "Tiles per axis.", DefaultValueFactory = _ => "8x8" };
+        var lines = new Option<int>("--lines") { Description = "Lines per tile.", DefaultValueFactory = _ => 30 };
+        var costTiles = new Option<int>("--cost-tiles") { Description = "Tiles per axis of the cubic sweep replayed to time the coordinator alone.", DefaultValueFactory = _ => 40 };
+        var command = new Command("cluster", "Tile-phase time of a sweep embedded, with 1 and with 2 local worker processes; the coordinator's cost per tile.");
+        foreach (var option in new Option[] { example, tiles, lines, costTiles })
+        {
+            command.Options.Add(option);
+        }
+
+        command.SetAction(async (parse, cancellation) =>
+        {
+            var family = ExampleCatalog.Load(parse.GetValue(example)!);
+            var options = new SweepOptions
+            {
+                Divisions = SweepCommand.Divisions(parse.GetValue(tiles)!, family.Parameters.Count, parse.GetValue(lines), null),
+                LinesPerTile = parse.GetValue(lines) is >= 1 and <= 10_000 ? parse.GetValue(lines) : throw new UsageException("--lines must be between 1 and 10000"),
+            };
+            var times = await ClusterBenchmark.SweepAsync(family, options, cancellation).ConfigureAwait(false);
+            var per = parse.GetValue(costTiles) is >= 2 and <= 400 ? parse.GetValue(costTiles) : throw new UsageException("--cost-tiles must be between 2 and 400");
+            var cubic = ExampleCatalog.Load("cubic");
+            var cost = await ClusterBenchmark.CoordinatorCostAsync(cubic, new SweepOptions { Divisions = [per, per], LinesPerTile = 1 }, cancellation).ConfigureAwait(false);
+            JsonOutput.Write(output, writer =>
+            {
+                writer.WriteStartObject();
+                MachineDescription.Write(writer);
+                writer.WriteString("family", family.Name);
+                writer.WriteString("options", options.CanonicalText);
+                writer.WriteNumber("tiles", times.Tiles);
+                writer.WriteNumber("embeddedSeconds", Math.Round(times.Embedded, 3));
+                writer.WriteNumber("oneWorkerSeconds", Math.Round(times.OneWorker, 3));
+                writer.WriteNumber("twoWorkersSeconds", Math.Round(times.TwoWorkers, 3));
+                writer.WriteNumber("twoOverOne", Math.Round(times.OneWorker / times.TwoWorkers, 3));
+                writer.WriteNumber("clusterOverhead", Math.Round((times.TwoWorkers / times.Embedded) - 1, 3));
+                writer.WriteBoolean("sameContentHash", times.SameContent);
+                writer.WriteStartObject("coordinator");
+                writer.WriteNumber("tiles", cost.Tiles);
+                writer.WriteNumber("microsecondsPerTile", Math.Round(cost.MicrosecondsPerTile, 1));
+                writer.WriteNumber("cpuMicrosecondsPerTile", Math.Round(cost.CpuMicrosecondsPerTile, 1));
+                writer.WriteNumber("workersFedAtOneSecondPerTile", Math.Floor(1e6 / cost.MicrosecondsPerTile));
+                writer.WriteEndObject();
+                writer.WriteEndObject();
+            });
+            return CommandLine.Success;
+        });
+        return command;
+    }
+
+    private static Command CreateAsk(TextWriter output)
+    {
+        var coordinator = new Option<string>("--coordinator") { Description = "The coordinator's address.", Required = true };
+        var atlas = new Option<string>("--atlas") { Description = "The atlas id.", Required = true };
+        var clients = new Option<int>("--clients") { Description = "Concurrent clients.", DefaultValueFactory = _ => 16 };
+        var seconds = new Option<double>("--seconds") { Description = "How long to ask.", DefaultValueFactory = _ => 20 };
+        var seed = new Option<long>("--seed") { Description = "Seed of the points.", DefaultValueFactory = _ => 7 };
+        var command = new Command("ask", "Routed asks through a running coordinator from concurrent clients: throughput and p50/p99 latency.");
+        foreach (var option in new Option[] { coordinator, atlas, clients, seconds, seed })
+        {
+            command.Options.Add(option);
+        }
+
+        command.SetAction(async (parse, cancellation) =>
+        {
+            var count = parse.GetValue(clients) is >= 1 and <= 10_000 ? parse.GetValue(clients) : throw new UsageException("--clients must be between 1 and 10000");
+            var duration = parse.GetValue(seconds) is >= 1 and <= 3600 ? parse.GetValue(seconds) : throw new UsageException("--seconds must be between 1 and 3600");
+            var load = await ClusterBenchmark.AskAsync(
+                ServeCommand.Url(parse.GetValue(coordinator)!, "--coordinator"), parse.GetValue(atlas)!, count, duration, (ulong)Math.Max(0, parse.GetValue(seed)), cancellation).ConfigureAwait(false);
+            JsonOutput.Write(output, writer =>
+            {
+                writer.WriteStartObject();
+                MachineDescription.Write(writer);
+                writer.WriteNumber("clients", count);
+                writer.WriteNumber("seconds", duration);
+                writer.WriteNumber("answered", load.Answered);
+                writer.WriteNumber("refused", load.Refused);
+                writer.WriteNumber("failed", load.Failed);
+                writer.WriteNumber("answersPerSecond", Math.Round(load.PerSecond, 1));
+                writer.WriteNumber("p50Microseconds", Math.Round(load.P50Microseconds, 1));
+                writer.WriteNumber("p99Microseconds", Math.Round(load.P99Microseconds, 1));
+                writer.WriteStartObject("methods");
+                foreach (var (method, n) in load.Methods.OrderBy(m => m.Key, StringComparer.Ordinal))
+                {
+                    writer.WriteNumber(method, n);
+                }
+
+                writer.WriteEndObject();
+                writer.WriteEndObject();
+            });
+            return CommandLine.Success;
+        });
         return command;
     }
 

@@ -11,14 +11,16 @@ namespace FiberWorkers.Cli.Commands;
 
 /// <summary>
 /// <c>fiber sweep FAMILY --atlas FILE [--tiles 6x6|auto] [--lines N] [--seed S] [--threads K] [--json]</c>: maps the
-/// parameter box into regions by real count and commits a new atlas version.
+/// parameter box into regions by real count and commits a new atlas version; with <c>--coordinator URL</c> instead of
+/// <c>--atlas</c> the sweep runs on a cluster and its summary has the same keys.
 /// </summary>
 internal static class SweepCommand
 {
     public static Command Create(TextWriter output, TextWriter error)
     {
         var family = new FamilyArguments();
-        var atlas = new Option<string>("--atlas") { Description = "The atlas file (SQLite) to write; created when absent.", Required = true };
+        var atlas = new Option<string?>("--atlas") { Description = "The atlas file (SQLite) to write; created when absent (not with --coordinator)." };
+        var coordinator = new Option<string?>("--coordinator") { Description = "Run the sweep on a cluster: the coordinator's address, e.g. http://127.0.0.1:7400." };
         var tiles = new Option<string>("--tiles") { Description = "Tiles per axis, e.g. 6x6 or 6x6x6, or auto (from --budget).", DefaultValueFactory = _ => "auto" };
         var lines = new Option<int>("--lines") { Description = "Lines per tile.", DefaultValueFactory = _ => 4 };
         var seed = new Option<long>("--seed") { Description = "Seed of every random choice.", DefaultValueFactory = _ => 1 };
@@ -31,13 +33,21 @@ internal static class SweepCommand
         var json = new Option<bool>("--json") { Description = "Print the summary as one JSON object." };
         var command = new Command("sweep", "Map the parameter box into regions by real-solution count, with the boundary located, into an atlas.");
         family.AddTo(command);
-        foreach (var option in new Option[] { atlas, tiles, lines, seed, threads, delta, refine, budget, startMethod, json })
+        foreach (var option in new Option[] { atlas, coordinator, tiles, lines, seed, threads, delta, refine, budget, startMethod, json })
         {
             command.Options.Add(option);
         }
 
-        command.SetAction((parse, cancellation) =>
+        command.SetAction(async (parse, cancellation) =>
         {
+            var remote = parse.GetValue(coordinator);
+            if ((remote is null) == (parse.GetValue(atlas) is null))
+            {
+                throw new UsageException(remote is null
+                    ? "give --atlas FILE (or --coordinator URL to run the sweep on a cluster)"
+                    : "--atlas names a local file; with --coordinator the cluster's store keeps the atlas");
+            }
+
             var definition = family.Load(parse);
             if (definition.Parameters.Count == 0)
             {
@@ -60,12 +70,13 @@ internal static class SweepCommand
                     _ => StartFiberMethod.Auto,
                 },
             };
-            using var store = SqliteAtlasStore.Open(parse.GetValue(atlas)!);
             var printer = new ProgressPrinter(error, !Console.IsErrorRedirected && ReferenceEquals(error, Console.Error));
             SweepSummary summary;
             try
             {
-                summary = new SweepRunner(store).Run(definition, options, printer, cancellation);
+                summary = remote is null
+                    ? RunHere(parse.GetValue(atlas)!, definition, options, printer, cancellation)
+                    : await ClusterSweep.RunAsync(ServeCommand.Url(remote, "--coordinator"), definition, options, printer, cancellation).ConfigureAwait(false);
             }
             finally
             {
@@ -88,9 +99,15 @@ internal static class SweepCommand
                 output.WriteLine(FiberOutput.Caution);
             }
 
-            return Task.FromResult(CommandLine.Success);
+            return CommandLine.Success;
         });
         return command;
+    }
+
+    private static SweepSummary RunHere(string file, FamilyDefinition definition, SweepOptions options, ProgressPrinter printer, CancellationToken cancellation)
+    {
+        using var store = SqliteAtlasStore.Open(file);
+        return new SweepRunner(store).Run(definition, options, printer, cancellation);
     }
 
     /// <summary>"6x6" or "auto": auto spreads the budget (default 4 tiles per axis without one).</summary>

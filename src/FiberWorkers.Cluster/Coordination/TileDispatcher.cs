@@ -80,7 +80,18 @@ public sealed class TileDispatcher
                         var outcome = await link.TilePipeline.ExecuteAsync(
                             async t =>
                             {
-                                var reply = await link.Client.RunTileAsync(task, cancellationToken: t).ConfigureAwait(false);
+                                TileOutcome reply;
+                                try
+                                {
+                                    reply = await link.Client.RunTileAsync(task, cancellationToken: t).ConfigureAwait(false);
+                                }
+                                catch (RpcException e) when (e.StatusCode == StatusCode.Cancelled && t.IsCancellationRequested)
+                                {
+                                    // The deadline (or the worker's loss) cancelled the call: report it as a cancellation,
+                                    // which the timeout strategy turns into a timeout when its own clock ran out.
+                                    throw new OperationCanceledException(e.Message, e, t);
+                                }
+
                                 TileChecks.Check(reply.Result, context, key, link.Id);
                                 return reply;
                             },
@@ -94,7 +105,8 @@ public sealed class TileDispatcher
                     }
                     catch (Exception e) when (!token.IsCancellationRequested)
                     {
-                        var kind = link.IsLost ? "lost" : e is TimeoutRejectedException ? "timeout" : "failed";
+                        var kind = link.IsLost ? "lost" : e is TimeoutRejectedException ? "timeout"
+                            : e is RpcException { StatusCode: StatusCode.ResourceExhausted } ? "busy" : "failed";
                         var detail = Describe(e, link);
                         failedOn.Add(link.Id);
                         _ledger.RecordAttempt(new TileAttempt(sweepId, tile, attempt, link.Id, started, clock.Elapsed.TotalSeconds, kind, detail));

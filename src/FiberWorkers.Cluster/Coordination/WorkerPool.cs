@@ -23,8 +23,9 @@ public sealed class WorkerLink : IDisposable
     private int _asksInFlight;
     private long _tilesDone;
     private long _tilesFailed;
+    private long _openUntilTicks;
 
-    internal WorkerLink(string id, Uri address, int threads, CoordinatorOptions options, Func<Uri, GrpcChannel> connect)
+    internal WorkerLink(string id, Uri address, int threads, CoordinatorOptions options, Func<Uri, GrpcChannel> connect, ILogger log)
     {
         Id = id;
         Address = address;
@@ -40,8 +41,20 @@ public sealed class WorkerLink : IDisposable
                 SamplingDuration = options.BreakSampling,
                 BreakDuration = options.BreakDuration,
                 StateProvider = _circuit,
+                OnOpened = args =>
+                {
+                    Volatile.Write(ref _openUntilTicks, (DateTimeOffset.UtcNow + args.BreakDuration).UtcTicks);
+                    log.Warning("circuit of worker {WorkerId} opened for {Seconds:F1} s: too many failed tiles", id, args.BreakDuration.TotalSeconds);
+                    return ValueTask.CompletedTask;
+                },
+                OnClosed = _ =>
+                {
+                    log.Information("circuit of worker {WorkerId} closed: it answers again", id);
+                    return ValueTask.CompletedTask;
+                },
+                // A busy worker (ResourceExhausted) is not a failing one; cancellations are the caller's.
                 ShouldHandle = new PredicateBuilder()
-                    .Handle<RpcException>(e => e.StatusCode != StatusCode.Cancelled)
+                    .Handle<RpcException>(e => e.StatusCode is not (StatusCode.Cancelled or StatusCode.ResourceExhausted))
                     .Handle<TimeoutRejectedException>()
                     .Handle<InvalidTileException>(),
             })
@@ -71,8 +84,28 @@ public sealed class WorkerLink : IDisposable
 
     public CircuitState Circuit => _circuit.CircuitState;
 
-    /// <summary>Can take a tile: not lost, circuit not open, a free slot.</summary>
-    public bool Available => !IsLost && Circuit is CircuitState.Closed or CircuitState.HalfOpen && Volatile.Read(ref _tilesInFlight) < Threads;
+    /// <summary>
+    /// Can take a tile: not lost, a free slot, and a closed circuit — or one trial tile at a time once the circuit's
+    /// break is over (the breaker itself moves to half-open only when a call arrives).
+    /// </summary>
+    public bool Available
+    {
+        get
+        {
+            if (IsLost || Volatile.Read(ref _tilesInFlight) >= Threads)
+            {
+                return false;
+            }
+
+            return Circuit switch
+            {
+                CircuitState.Closed => true,
+                CircuitState.HalfOpen => TilesInFlight == 0,
+                CircuitState.Open => TilesInFlight == 0 && DateTimeOffset.UtcNow.UtcTicks >= Volatile.Read(ref _openUntilTicks),
+                _ => false,
+            };
+        }
+    }
 
     public int TilesInFlight => Volatile.Read(ref _tilesInFlight);
 
@@ -82,7 +115,7 @@ public sealed class WorkerLink : IDisposable
 
     public long TilesFailed => Interlocked.Read(ref _tilesFailed);
 
-    public string State => IsLost ? "lost" : Circuit is CircuitState.Open or CircuitState.Isolated ? "open-circuit" : "live";
+    public string State => IsLost ? "lost" : Circuit is CircuitState.Open or CircuitState.Isolated or CircuitState.HalfOpen ? "open-circuit" : "live";
 
     internal bool TryTakeSlot()
     {
@@ -185,7 +218,7 @@ public sealed class WorkerPool : IDisposable
                 replaced = known;
             }
 
-            _workers[id] = new WorkerLink(id, address, threads, _options, _connect);
+            _workers[id] = new WorkerLink(id, address, threads, _options, _connect, _log);
         }
 
         replaced?.MarkLost();

@@ -21,6 +21,9 @@ public sealed record HostSettings
     /// <summary>Where the server's events go.</summary>
     public required ILogger Logger { get; init; }
 
+    /// <summary>Called when the host begins to stop (SIGTERM, Ctrl+C or a call to stop it).</summary>
+    public Action? Stopping { get; init; }
+
     /// <summary>Reported by the "ready" health service (grpc.health.v1, service name "ready"); null: always ready.</summary>
     public Func<bool>? Ready { get; init; }
 }
@@ -82,6 +85,11 @@ public sealed class GrpcHost : IAsyncDisposable
         services(builder.Services);
         var app = builder.Build();
         map(app);
+        if (settings.Stopping is { } stopping)
+        {
+            app.Lifetime.ApplicationStopping.Register(stopping);
+        }
+
         app.MapGrpcHealthChecksService();
         app.MapGrpcReflectionService();
         await app.StartAsync(cancellation).ConfigureAwait(false);

@@ -87,7 +87,7 @@ public sealed class WorkerRuntime
             await MisbehaveAsync(cancellation).ConfigureAwait(false);
             var clock = Stopwatch.StartNew();
             var (result, paths) = await Task.Factory.StartNew(
-                () => TileComputer.Compute(context, key), cancellation, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
+                () => TileComputer.Compute(context, key, cancellation), cancellation, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
             if (_options.Fault == "garbage")
             {
                 result = result.Clone();

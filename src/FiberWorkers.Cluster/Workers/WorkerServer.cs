@@ -50,7 +50,18 @@ public sealed class WorkerServer : IAsyncDisposable
         var runtime = new WorkerRuntime(options, coordinator, log);
         WorkerAgent? agent = null;
         var host = await GrpcHost.StartAsync(
-            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, Ready = () => agent?.Registered == true },
+            new HostSettings
+            {
+                Listen = listen,
+                Logger = log,
+                MaxMessageBytes = options.MaxMessageBytes,
+                Ready = () => agent?.Registered == true,
+                Stopping = () =>
+                {
+                    runtime.BeginStopping();
+                    log.Information("worker {WorkerId} stopping: no new tiles; {Running} tiles in flight finish first", runtime.Id, runtime.TilesRunning);
+                },
+            },
             services => services.AddSingleton(runtime),
             app => app.MapGrpcService<WorkerService>(),
             cancellation).ConfigureAwait(false);
