@@ -34,10 +34,11 @@ public sealed record FamilyLimits
     public int MaxTerms { get; init; } = 50_000;
 
     /// <summary>
-    /// Most term operations spent expanding all equations of a family (multiplying an m-term by an n-term polynomial
-    /// costs m·n, adding them m + n), about a second of work. Default 5,000,000.
+    /// Most work spent expanding all equations of a family, in exponent operations: multiplying an m-term by an
+    /// n-term polynomial over v variables (unknowns and parameters) costs m·n·v, adding them (m + n)·v. The default,
+    /// 10,000,000, is about half a second of expansion.
     /// </summary>
-    public long MaxExpansionWork { get; init; } = 5_000_000;
+    public long MaxExpansionWork { get; init; } = 10_000_000;
 
     /// <summary>Longest name of an unknown, parameter or constant, in characters. Default 64.</summary>
     public int MaxNameLength { get; init; } = 64;

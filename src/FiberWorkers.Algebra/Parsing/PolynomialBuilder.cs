@@ -40,8 +40,9 @@ internal sealed class PolynomialBuilder
     }
 
     /// <summary>
-    /// Term operations spent so far on all equations built with this builder (a product of an m-term and an n-term
-    /// polynomial costs m·n, a sum m + n), checked against <see cref="FamilyLimits.MaxExpansionWork"/>.
+    /// Work spent so far on all equations built with this builder, in exponent operations: a product of an m-term and
+    /// an n-term polynomial over v variables costs m·n·v, a sum (m + n)·v. Checked against
+    /// <see cref="FamilyLimits.MaxExpansionWork"/>.
     /// </summary>
     public long Work => _work;
 
@@ -157,13 +158,13 @@ internal sealed class PolynomialBuilder
     // Every limit on one equation's size still lets sums and products of large intermediate polynomials repeat
     // (about 0.1 s of expansion per hundred characters here, hours for a file under the size limit), so the work
     // of the whole family is bounded as well.
-    private void Charge(int column, long work)
+    private void Charge(int column, long terms)
     {
-        _work += work;
+        _work += terms * Math.Max(1, _variableCount);
         if (WorkExhausted)
         {
             throw new ExpressionSyntaxException(
-                column, $"expanding the equations takes more than {_limits.MaxExpansionWork} term operations (limit)");
+                column, $"expanding the equations takes more than {_limits.MaxExpansionWork} exponent operations (limit)");
         }
     }
 
