@@ -112,7 +112,10 @@ internal sealed class PolynomialBuilder
         {
             var denominator = ConstantDenominator(binary);
             Charge(binary.Column, left.TermCount);
-            return Finite(binary.Column, left.Scale(1.0 / denominator));
+
+            // A product with the reciprocal rather than Scale: the same roundings, but coefficients that underflow
+            // to zero (1e-320*x/1e10) are dropped, so that an equation that vanishes is reported as zero.
+            return Finite(binary.Column, left.Multiply(Polynomial.Constant(_variableCount, 1.0 / denominator)));
         }
 
         var right = Build(binary.Right);
