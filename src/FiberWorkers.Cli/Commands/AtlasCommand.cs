@@ -11,21 +11,39 @@ namespace FiberWorkers.Cli.Commands;
 /// <summary>
 /// <c>fiber atlas FILE [--json] [--flags] [--atlas-id ID]</c>: the versions of an atlas (number, parent, kind,
 /// creation time in UTC) with the same summary per version as <c>fiber sweep</c> prints, and on request the
-/// inconsistency flags kept in the latest version.
+/// inconsistency flags kept in the latest version. With <c>--coordinator URL</c>: the versions a cluster holds.
 /// </summary>
 internal static class AtlasCommand
 {
     public static Command Create(TextWriter output)
     {
-        var atlas = new AtlasArguments();
+        var atlas = new AtlasArguments(fileOptional: true);
+        var coordinator = new Option<string?>("--coordinator") { Description = "List the atlases a cluster's coordinator holds instead of a file's." };
         var json = new Option<bool>("--json") { Description = "Print one JSON object instead of text." };
         var flags = new Option<bool>("--flags") { Description = "Also list the inconsistency flags kept in the latest version, with their tiles." };
         var command = new Command("atlas", "List the versions of an atlas file with their summaries.");
         atlas.AddTo(command);
         command.Options.Add(json);
         command.Options.Add(flags);
-        command.SetAction(parse =>
+        command.Options.Add(coordinator);
+        command.SetAction(async (parse, cancellation) =>
         {
+            if (parse.GetValue(coordinator) is { } remote)
+            {
+                if (parse.GetValue(atlas.File) is not null || parse.GetValue(flags))
+                {
+                    throw new UsageException("with --coordinator, give no FILE (and --flags reads files only); --atlas-id picks one atlas");
+                }
+
+                await WriteRemote(output, ServeCommand.Url(remote, "--coordinator"), parse.GetValue(atlas.AtlasId), parse.GetValue(json), cancellation).ConfigureAwait(false);
+                return CommandLine.Success;
+            }
+
+            if (parse.GetValue(atlas.File) is null)
+            {
+                throw new UsageException("give the atlas FILE (or --coordinator URL)");
+            }
+
             using var store = atlas.Open(parse);
             var latest = atlas.Load(parse, store);
             var runner = new SweepRunner(store);
@@ -46,6 +64,67 @@ internal static class AtlasCommand
             return CommandLine.Success;
         });
         return command;
+    }
+
+    private static async Task WriteRemote(TextWriter output, Uri coordinator, string? atlasId, bool json, CancellationToken cancellation)
+    {
+        using var client = new FiberWorkers.Cluster.Client.ClusterClient(coordinator);
+        var versions = await client.VersionsAsync(atlasId ?? string.Empty, cancellation).ConfigureAwait(false);
+        if (json)
+        {
+            JsonOutput.Write(output, writer =>
+            {
+                writer.WriteStartObject();
+                writer.WriteString("coordinator", coordinator.ToString().TrimEnd('/'));
+                writer.WriteStartArray("versions");
+                foreach (var version in versions)
+                {
+                    writer.WriteStartObject();
+                    writer.WriteString("atlasId", version.AtlasId);
+                    writer.WriteString("family", version.FamilyName);
+                    writer.WriteNumber("version", version.Version);
+                    if (version.Parent > 0)
+                    {
+                        writer.WriteNumber("parent", version.Parent);
+                    }
+                    else
+                    {
+                        writer.WriteNull("parent");
+                    }
+
+                    writer.WriteString("kind", version.Kind);
+                    writer.WriteString("created", version.Created);
+                    writer.WriteString("options", version.Options);
+                    writer.WriteString("contentHash", version.ContentHash);
+                    writer.WritePropertyName("summary");
+                    using (var summary = JsonDocument.Parse(version.SummaryJson))
+                    {
+                        summary.RootElement.WriteTo(writer);
+                    }
+
+                    writer.WriteEndObject();
+                }
+
+                writer.WriteEndArray();
+                writer.WriteEndObject();
+            });
+            return;
+        }
+
+        if (versions.Count == 0)
+        {
+            output.WriteLine($"the coordinator at {coordinator} holds no atlas version yet");
+            return;
+        }
+
+        foreach (var group in versions.GroupBy(v => v.AtlasId))
+        {
+            output.WriteLine($"atlas {group.Key} ({group.First().FamilyName})");
+            foreach (var version in group)
+            {
+                output.WriteLine($"  version {version.Version,3}  {version.Kind,-8} {version.Created}  {version.ContentHash[..16]}  {version.SummaryJson}");
+            }
+        }
     }
 
     private static void WriteJson(

@@ -29,6 +29,12 @@ internal static class ServeCommand
         return option;
     }
 
+    private static Option<double> DrainTimeout() => new("--drain-timeout")
+    {
+        Description = "Seconds calls in flight may run on after SIGTERM before the server stops anyway.",
+        DefaultValueFactory = _ => 20.0,
+    };
+
     private static Command CreateCoordinator(TextWriter error)
     {
         var listen = new Option<string>("--listen") { Description = "Address to listen on (HOST:PORT).", DefaultValueFactory = _ => "127.0.0.1:7400" };
@@ -38,9 +44,10 @@ internal static class ServeCommand
         var attempts = new Option<int>("--max-attempts") { Description = "Attempts at one tile before the sweep fails (it can be resumed).", DefaultValueFactory = _ => 12 };
         var askQueue = new Option<int>("--ask-queue") { Description = "Asks waiting per worker before new ones are refused.", DefaultValueFactory = _ => 256 };
         var threads = new Option<int>("--threads") { Description = "Threads for the start fibers the coordinator computes.", DefaultValueFactory = _ => Environment.ProcessorCount };
+        var drain = DrainTimeout();
         var format = LogFormat();
         var command = new Command("coordinator", "Run the coordinator: owns sweeps and atlases, hands tiles to workers, routes asks.");
-        foreach (var option in new Option[] { listen, store, heartbeat, deadline, attempts, askQueue, threads, format })
+        foreach (var option in new Option[] { listen, store, heartbeat, deadline, attempts, askQueue, threads, drain, format })
         {
             command.Options.Add(option);
         }
@@ -55,6 +62,7 @@ internal static class ServeCommand
                 MaxTileAttempts = Range(parse.GetValue(attempts), 1, 1000, "--max-attempts"),
                 AskQueuePerWorker = Range(parse.GetValue(askQueue), 1, 1_000_000, "--ask-queue"),
                 StartFiberThreads = Range(parse.GetValue(threads), 1, 4096, "--threads"),
+                DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
             };
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "coordinator");
             using var ledger = LedgerStores.Open(parse.GetValue(store)!);
@@ -79,9 +87,10 @@ internal static class ServeCommand
         var resolveQueue = new Option<int>("--resolve-queue") { Description = "Resolves waiting before new ones are refused.", DefaultValueFactory = _ => 256 };
         var shardCache = new Option<int>("--shard-cache") { Description = "Tile shards kept in memory.", DefaultValueFactory = _ => 64 };
         var id = new Option<string?>("--id") { Description = "The worker's id (default: host, process id and a random suffix)." };
+        var drain = DrainTimeout();
         var format = LogFormat();
         var command = new Command("worker", "Run a worker: computes tiles and answers resolves for the coordinator.");
-        foreach (var option in new Option[] { listen, coordinator, advertise, threads, resolveQueue, shardCache, id, format })
+        foreach (var option in new Option[] { listen, coordinator, advertise, threads, resolveQueue, shardCache, id, drain, format })
         {
             command.Options.Add(option);
         }
@@ -98,6 +107,7 @@ internal static class ServeCommand
                 ShardCache = Range(parse.GetValue(shardCache), 1, 100_000, "--shard-cache"),
                 Id = parse.GetValue(id) is { } name ? WorkerId(name) : defaults.Id,
                 Fault = Environment.GetEnvironmentVariable("FIBER_WORKER_FAULT") is { Length: > 0 } fault ? fault : null,
+                DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
             };
             if (address.IsAny && options.Advertise is null)
             {

@@ -41,6 +41,9 @@ public sealed record CoordinatorOptions
     /// <summary>Threads for the start fibers the coordinator computes before handing out tiles.</summary>
     public int StartFiberThreads { get; init; } = Environment.ProcessorCount;
 
+    /// <summary>How long calls in flight may run on after SIGTERM before the server stops anyway.</summary>
+    public TimeSpan DrainTimeout { get; init; } = TimeSpan.FromSeconds(20);
+
     /// <summary>Largest message accepted or sent, in bytes.</summary>
     public int MaxMessageBytes { get; init; } = 64 << 20;
 }

@@ -21,6 +21,9 @@ public sealed record HostSettings
     /// <summary>Where the server's events go.</summary>
     public required ILogger Logger { get; init; }
 
+    /// <summary>How long calls in flight may run on after a stop signal (SIGTERM) before the host stops anyway.</summary>
+    public TimeSpan DrainTimeout { get; init; } = TimeSpan.FromSeconds(20);
+
     /// <summary>Called when the host begins to stop (SIGTERM, Ctrl+C or a call to stop it).</summary>
     public Action? Stopping { get; init; }
 
@@ -65,7 +68,7 @@ public sealed class GrpcHost : IAsyncDisposable
             kestrel.Limits.MaxRequestBodySize = settings.MaxMessageBytes;
             kestrel.Listen(settings.Listen.Address, settings.Listen.Port, endpoint => endpoint.Protocols = HttpProtocols.Http2);
         });
-        builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = TimeSpan.FromSeconds(20));
+        builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = settings.DrainTimeout);
         builder.Services.AddGrpc(o =>
         {
             o.MaxReceiveMessageSize = settings.MaxMessageBytes;

@@ -24,6 +24,12 @@ public sealed record WorkerOptions
     /// <summary>Sweep setups (family and start fibers) kept.</summary>
     public int SetupCache { get; init; } = 4;
 
+    /// <summary>
+    /// How long tiles and resolves in flight may run on after SIGTERM before the worker stops anyway (tiles cut short
+    /// are retried elsewhere by the coordinator).
+    /// </summary>
+    public TimeSpan DrainTimeout { get; init; } = TimeSpan.FromSeconds(20);
+
     /// <summary>Largest message accepted or sent, in bytes.</summary>
     public int MaxMessageBytes { get; init; } = 64 << 20;
 

@@ -56,6 +56,9 @@ public sealed class WorkerRuntime
 
     public int ResolvesWaiting => Volatile.Read(ref _resolvesWaiting);
 
+    /// <summary>True once the worker began to stop.</summary>
+    public bool IsStopping => _stopping;
+
     /// <summary>Refuses new tiles from now on (Unavailable, so the coordinator gives them to another worker).</summary>
     public void BeginStopping() => _stopping = true;
 

@@ -55,7 +55,10 @@ public sealed class WorkerServer : IAsyncDisposable
                 Listen = listen,
                 Logger = log,
                 MaxMessageBytes = options.MaxMessageBytes,
-                Ready = () => agent?.Registered == true,
+                DrainTimeout = options.DrainTimeout,
+
+                // A stopping worker is no longer ready, so orchestrators stop sending it clients.
+                Ready = () => agent?.Registered == true && !runtime.IsStopping,
                 Stopping = () =>
                 {
                     runtime.BeginStopping();

@@ -38,13 +38,13 @@ internal static partial class DeployChecks
         return problems;
     }
 
-    /// <summary>The servers' shutdown timeout (HostOptions.ShutdownTimeout in GrpcHost), which grace periods must exceed.</summary>
+    /// <summary>The servers' shutdown timeout (the default DrainTimeout of HostSettings in GrpcHost, which sets HostOptions.ShutdownTimeout), which grace periods must exceed.</summary>
     public static int ShutdownSeconds(DeployFiles files, List<string> problems)
     {
         var match = ShutdownTimeout().Match(File.ReadAllText(files.Source(HostSource)));
         if (!match.Success)
         {
-            problems.Add($"{HostSource}:1: no 'ShutdownTimeout = TimeSpan.FromSeconds(N)' found; the deploy test reads the servers' shutdown timeout from it");
+            problems.Add($"{HostSource}:1: no 'DrainTimeout {{ get; init; }} = TimeSpan.FromSeconds(N)' found; the deploy test reads the servers' shutdown timeout from it");
             return 0;
         }
 
@@ -60,6 +60,6 @@ internal static partial class DeployChecks
         return [.. problems.Distinct()];
     }
 
-    [GeneratedRegex(@"ShutdownTimeout\s*=\s*TimeSpan\.FromSeconds\((?<seconds>\d+)\)")]
+    [GeneratedRegex(@"DrainTimeout\s*\{\s*get;\s*init;\s*\}\s*=\s*TimeSpan\.FromSeconds\((?<seconds>\d+)\)")]
     private static partial Regex ShutdownTimeout();
 }
