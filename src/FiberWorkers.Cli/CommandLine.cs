@@ -34,6 +34,7 @@ internal static class CommandLine
         root.Subcommands.Add(AskCommand.Create(output, error));
         root.Subcommands.Add(BenchCommand.Create(output));
         root.Subcommands.Add(ServeCommand.Create(error));
+        root.Subcommands.Add(CertsCommand.Create(output));
         return root;
     }
 

@@ -40,6 +40,12 @@ public sealed class SweepRunner
         return $"a{family.ContentHash[..15]}";
     }
 
+    /// <summary>
+    /// Put before <see cref="AtlasIdOf"/> to give the id this runner's sweeps write to (a cluster's tenant, e.g.
+    /// "acme/"); null (the default): none.
+    /// </summary>
+    public string? AtlasNamespace { get; init; }
+
     /// <summary>Runs (or resumes) the sweep on this machine and commits its version.</summary>
     public SweepSummary Run(FamilyDefinition family, SweepOptions options, IProgress<SweepProgress>? progress = null, CancellationToken cancellation = default) =>
         RunAsync(family, options, null, progress, cancellation).GetAwaiter().GetResult();
@@ -53,7 +59,7 @@ public sealed class SweepRunner
         ArgumentNullException.ThrowIfNull(family);
         ArgumentNullException.ThrowIfNull(options);
         CheckSweepable(family, options);
-        var atlasId = AtlasIdOf(family);
+        var atlasId = AtlasNamespace + AtlasIdOf(family);
         _store.EnsureAtlas(atlasId, family.ContentHash, JsonFormatter.Default.Format(family.Message));
         var parent = _store.Versions(atlasId).LastOrDefault()?.Version;
         return (atlasId, _store.BeginOrResumeSweep(atlasId, options.CanonicalText, parent).SweepId);
@@ -71,7 +77,7 @@ public sealed class SweepRunner
         ArgumentNullException.ThrowIfNull(options);
         CheckSweepable(family, options);
         var clock = Stopwatch.StartNew();
-        var atlasId = AtlasIdOf(family);
+        var atlasId = AtlasNamespace + AtlasIdOf(family);
         _store.EnsureAtlas(atlasId, family.ContentHash, JsonFormatter.Default.Format(family.Message));
         progress?.Report(new SweepProgress("start fibers", 0, 0, 0, 0, 0, null));
         var context = SweepContext.Create(family, options, kind => LoadStartFiber(family, options, kind), message => progress?.Report(new SweepProgress(message, 0, 0, 0, 0, 0, null)));

@@ -35,7 +35,8 @@ internal static class AskCommand
         var command = new Command("ask", "The real solutions at points, from an atlas: real-only tracking from the nearest solved sample, certified.");
         atlas.AddTo(command);
         choice.AddTo(command);
-        foreach (var option in new Option[] { at, points, outFile, json, verify, learn, version, coordinator, atlasName, direct })
+        var security = new ClientSecurityArguments();
+        foreach (var option in (Option[])[at, points, outFile, json, verify, learn, version, coordinator, atlasName, direct, .. security.Options])
         {
             command.Options.Add(option);
         }
@@ -66,8 +67,9 @@ internal static class AskCommand
                     throw new UsageException("with --coordinator, ask one point with --at (batches, --learn and --model work on atlas files)");
                 }
 
+                var url = ServeCommand.Url(remote, "--coordinator");
                 return await ClusterAsk.RunAsync(
-                    ServeCommand.Url(remote, "--coordinator"), parse.GetValue(atlasName)!, parse.GetValue(version) ?? 0, single, parse.GetValue(verify) == "full",
+                    url, security.Resolve(parse, url, "--coordinator"), parse.GetValue(atlasName)!, parse.GetValue(version) ?? 0, single, parse.GetValue(verify) == "full",
                     parse.GetValue(direct), parse.GetValue(json), output, cancellation).ConfigureAwait(false);
             }
 

@@ -26,6 +26,12 @@ internal static class AtlasCommand
         command.Options.Add(json);
         command.Options.Add(flags);
         command.Options.Add(coordinator);
+        var security = new ClientSecurityArguments();
+        foreach (var option in security.Options)
+        {
+            command.Options.Add(option);
+        }
+
         command.SetAction(async (parse, cancellation) =>
         {
             if (parse.GetValue(coordinator) is { } remote)
@@ -35,7 +41,8 @@ internal static class AtlasCommand
                     throw new UsageException("with --coordinator, give no FILE (and --flags reads files only); --atlas-id picks one atlas");
                 }
 
-                await WriteRemote(output, ServeCommand.Url(remote, "--coordinator"), parse.GetValue(atlas.AtlasId), parse.GetValue(json), cancellation).ConfigureAwait(false);
+                var url = ServeCommand.Url(remote, "--coordinator");
+                await WriteRemote(output, url, security.Resolve(parse, url, "--coordinator"), parse.GetValue(atlas.AtlasId), parse.GetValue(json), cancellation).ConfigureAwait(false);
                 return CommandLine.Success;
             }
 
@@ -66,9 +73,9 @@ internal static class AtlasCommand
         return command;
     }
 
-    private static async Task WriteRemote(TextWriter output, Uri coordinator, string? atlasId, bool json, CancellationToken cancellation)
+    private static async Task WriteRemote(TextWriter output, Uri coordinator, FiberWorkers.Cluster.Security.ClientSecurity security, string? atlasId, bool json, CancellationToken cancellation)
     {
-        using var client = new FiberWorkers.Cluster.Client.ClusterClient(coordinator);
+        using var client = new FiberWorkers.Cluster.Client.ClusterClient(coordinator, security: security);
         var versions = await client.VersionsAsync(atlasId ?? string.Empty, cancellation).ConfigureAwait(false);
         if (json)
         {

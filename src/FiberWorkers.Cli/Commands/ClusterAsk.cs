@@ -2,6 +2,7 @@ using System.Globalization;
 using FiberWorkers.Algebra.Families;
 using FiberWorkers.Cli.Output;
 using FiberWorkers.Cluster.Client;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Contracts.V1;
 using Grpc.Core;
 
@@ -11,9 +12,9 @@ namespace FiberWorkers.Cli.Commands;
 internal static class ClusterAsk
 {
     public static async Task<int> RunAsync(
-        Uri coordinator, string atlasId, int version, string at, bool verify, bool direct, bool json, TextWriter output, CancellationToken cancellation)
+        Uri coordinator, ClientSecurity security, string atlasId, int version, string at, bool verify, bool direct, bool json, TextWriter output, CancellationToken cancellation)
     {
-        using var client = new ClusterClient(coordinator);
+        using var client = new ClusterClient(coordinator, security: security);
         var versions = await client.VersionsAsync(atlasId, cancellation).ConfigureAwait(false);
         if (versions.Count == 0)
         {

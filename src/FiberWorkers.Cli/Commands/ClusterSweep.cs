@@ -2,6 +2,7 @@ using FiberWorkers.Algebra.Families;
 using FiberWorkers.Atlas.Sweeps;
 using FiberWorkers.Cluster.Client;
 using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Contracts.V1;
 using Google.Protobuf;
 
@@ -10,9 +11,9 @@ namespace FiberWorkers.Cli.Commands;
 /// <summary>A sweep submitted to a coordinator and followed to its commit (<c>fiber sweep --coordinator</c>).</summary>
 internal static class ClusterSweep
 {
-    public static async Task<SweepSummary> RunAsync(Uri coordinator, FamilyDefinition family, SweepOptions options, IProgress<SweepProgress> progress, CancellationToken cancellation)
+    public static async Task<SweepSummary> RunAsync(Uri coordinator, ClientSecurity security, FamilyDefinition family, SweepOptions options, IProgress<SweepProgress> progress, CancellationToken cancellation)
     {
-        using var client = new ClusterClient(coordinator);
+        using var client = new ClusterClient(coordinator, security: security);
         var request = new SubmitSweepRequest
         {
             FamilyJson = JsonFormatter.Default.Format(family.Message),

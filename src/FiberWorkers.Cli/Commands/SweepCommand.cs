@@ -33,7 +33,8 @@ internal static class SweepCommand
         var json = new Option<bool>("--json") { Description = "Print the summary as one JSON object." };
         var command = new Command("sweep", "Map the parameter box into regions by real-solution count, with the boundary located, into an atlas.");
         family.AddTo(command);
-        foreach (var option in new Option[] { atlas, coordinator, tiles, lines, seed, threads, delta, refine, budget, startMethod, json })
+        var security = new ClientSecurityArguments();
+        foreach (var option in (Option[])[atlas, coordinator, tiles, lines, seed, threads, delta, refine, budget, startMethod, json, .. security.Options])
         {
             command.Options.Add(option);
         }
@@ -76,7 +77,7 @@ internal static class SweepCommand
             {
                 summary = remote is null
                     ? RunHere(parse.GetValue(atlas)!, definition, options, printer, cancellation)
-                    : await ClusterSweep.RunAsync(ServeCommand.Url(remote, "--coordinator"), definition, options, printer, cancellation).ConfigureAwait(false);
+                    : await ClusterSweep.RunAsync(ServeCommand.Url(remote, "--coordinator"), security.Resolve(parse, ServeCommand.Url(remote, "--coordinator"), "--coordinator"), definition, options, printer, cancellation).ConfigureAwait(false);
             }
             finally
             {

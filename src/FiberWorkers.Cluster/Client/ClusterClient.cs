@@ -1,6 +1,7 @@
 using FiberWorkers.Algebra.Families;
 using FiberWorkers.Atlas.Tiles;
 using FiberWorkers.Cluster.Routing;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Contracts.V1;
 using Grpc.Core;
 using Grpc.Net.Client;
@@ -18,11 +19,14 @@ public sealed class ClusterClient : IDisposable
     private readonly Dictionary<string, GrpcChannel> _workers = new(StringComparer.Ordinal);
     private readonly Lock _gate = new();
     private readonly int _maxMessageBytes;
+    private readonly ClientSecurity _security;
 
-    public ClusterClient(Uri coordinator, int maxMessageBytes = 64 << 20)
+    /// <summary>A client of <paramref name="coordinator"/>; <paramref name="security"/> (roots, client certificate, token) serves its workers too.</summary>
+    public ClusterClient(Uri coordinator, int maxMessageBytes = 64 << 20, ClientSecurity? security = null)
     {
         ArgumentNullException.ThrowIfNull(coordinator);
         _maxMessageBytes = maxMessageBytes;
+        _security = security ?? ClientSecurity.None;
         _channel = Connect(coordinator);
         Coordinator = new Coordinator.CoordinatorClient(_channel);
     }
@@ -159,9 +163,5 @@ public sealed class ClusterClient : IDisposable
         }
     }
 
-    private GrpcChannel Connect(Uri address) => GrpcChannel.ForAddress(address, new GrpcChannelOptions
-    {
-        MaxReceiveMessageSize = _maxMessageBytes,
-        MaxSendMessageSize = _maxMessageBytes,
-    });
+    private GrpcChannel Connect(Uri address) => ChannelSecurity.Open(address, _security, _maxMessageBytes);
 }

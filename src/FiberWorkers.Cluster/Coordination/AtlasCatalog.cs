@@ -175,6 +175,13 @@ public sealed class AtlasCatalog
     {
         ArgumentNullException.ThrowIfNull(settings);
         var atlasId = $"a{familyHash[..Math.Min(15, familyHash.Length)]}";
+
+        // Tenants' atlases of the family live under their namespaces ("acme/a..."); any of them holds the family.
+        if (_store.Family(atlasId) is null)
+        {
+            atlasId = _store.Atlases().FirstOrDefault(a => a.EndsWith(Security.TenantScope.Separator + atlasId, StringComparison.Ordinal)) ?? atlasId;
+        }
+
         var family = _store.Family(atlasId) is { } known && known.FamilyHash == familyHash
             ? Family(atlasId)
             : throw new RpcException(new Status(StatusCode.NotFound, $"family_hash: no atlas holds family {familyHash}"));

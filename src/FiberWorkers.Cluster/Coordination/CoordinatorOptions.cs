@@ -44,6 +44,12 @@ public sealed record CoordinatorOptions
     /// <summary>How long calls in flight may run on after SIGTERM before the server stops anyway.</summary>
     public TimeSpan DrainTimeout { get; init; } = TimeSpan.FromSeconds(20);
 
+    /// <summary>
+    /// TLS of the listener, the tokens calls need, and how the coordinator calls workers (its roots, client certificate
+    /// and worker-role token). Default: none of it (loopback only).
+    /// </summary>
+    public FiberWorkers.Cluster.Security.ServerSecurity Security { get; init; } = FiberWorkers.Cluster.Security.ServerSecurity.None;
+
     /// <summary>Largest message accepted or sent, in bytes.</summary>
     public int MaxMessageBytes { get; init; } = 64 << 20;
 }

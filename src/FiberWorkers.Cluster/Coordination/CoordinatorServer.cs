@@ -49,7 +49,7 @@ public sealed class CoordinatorServer : IAsyncDisposable
         var sweeps = new SweepManager(ledger, dispatcher, pool, catalog, options, log);
         var router = new AskRouter(pool, catalog, options, log);
         var host = await GrpcHost.StartAsync(
-            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, DrainTimeout = options.DrainTimeout },
+            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, DrainTimeout = options.DrainTimeout, Security = options.Security },
             services =>
             {
                 services.AddSingleton(options);

@@ -194,11 +194,7 @@ public sealed class WorkerPool : IDisposable
         ArgumentNullException.ThrowIfNull(log);
         _options = options;
         _log = log;
-        _connect = connect ?? (address => GrpcChannel.ForAddress(address, new GrpcChannelOptions
-        {
-            MaxReceiveMessageSize = options.MaxMessageBytes,
-            MaxSendMessageSize = options.MaxMessageBytes,
-        }));
+        _connect = connect ?? (address => Security.ChannelSecurity.Open(address, options.Security.Outbound, options.MaxMessageBytes));
     }
 
     /// <summary>Registers (or re-registers) a worker; a new address under a known id replaces the old link.</summary>

@@ -6,6 +6,7 @@ using Microsoft.AspNetCore.Server.Kestrel.Core;
 using Microsoft.Extensions.DependencyInjection;
 using Microsoft.Extensions.Diagnostics.HealthChecks;
 using Microsoft.Extensions.Hosting;
+using FiberWorkers.Cluster.Security;
 using Serilog;
 
 namespace FiberWorkers.Cluster.Hosting;
@@ -29,6 +30,9 @@ public sealed record HostSettings
 
     /// <summary>Reported by the "ready" health service (grpc.health.v1, service name "ready"); null: always ready.</summary>
     public Func<bool>? Ready { get; init; }
+
+    /// <summary>TLS of the gRPC listener and the tokens its calls need (default: plaintext without tokens, loopback only).</summary>
+    public ServerSecurity Security { get; init; } = ServerSecurity.None;
 }
 
 /// <summary>
@@ -60,13 +64,22 @@ public sealed class GrpcHost : IAsyncDisposable
         ArgumentNullException.ThrowIfNull(settings);
         ArgumentNullException.ThrowIfNull(services);
         ArgumentNullException.ThrowIfNull(map);
+        if (settings.Security.Problem(settings.Listen) is { } insecure)
+        {
+            throw new InvalidOperationException(insecure);
+        }
+
         var builder = WebApplication.CreateSlimBuilder(new WebApplicationOptions { Args = [], ApplicationName = "fiber" });
         builder.Services.AddSerilog(settings.Logger, dispose: false);
         builder.WebHost.ConfigureKestrel(kestrel =>
         {
             kestrel.AddServerHeader = false;
             kestrel.Limits.MaxRequestBodySize = settings.MaxMessageBytes;
-            kestrel.Listen(settings.Listen.Address, settings.Listen.Port, endpoint => endpoint.Protocols = HttpProtocols.Http2);
+            kestrel.Listen(settings.Listen.Address, settings.Listen.Port, endpoint =>
+            {
+                endpoint.Protocols = HttpProtocols.Http2;
+                settings.Security.Tls?.Configure(endpoint);
+            });
         });
         builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = settings.DrainTimeout);
         builder.Services.AddGrpc(o =>
@@ -74,6 +87,10 @@ public sealed class GrpcHost : IAsyncDisposable
             o.MaxReceiveMessageSize = settings.MaxMessageBytes;
             o.MaxSendMessageSize = settings.MaxMessageBytes;
             o.EnableDetailedErrors = false;
+            if (settings.Security.Tokens is { } tokens)
+            {
+                o.Interceptors.Add<AuthInterceptor>(tokens, settings.Logger);
+            }
         });
         builder.Services.AddGrpcReflection();
         var ready = settings.Ready ?? (() => true);
@@ -96,6 +113,12 @@ public sealed class GrpcHost : IAsyncDisposable
         app.MapGrpcHealthChecksService();
         app.MapGrpcReflectionService();
         await app.StartAsync(cancellation).ConfigureAwait(false);
+        if (settings.Security.InsecureNoAuth && settings.Security.Tokens is null)
+        {
+            settings.Logger.Warning("calls need no token (--insecure-no-auth): anyone who can connect may submit sweeps, read atlases and register workers");
+        }
+
+        settings.Logger.Information("security: {Security}", settings.Security.Describe());
         var bound = app.Services.GetRequiredService<IServer>().Features.Get<IServerAddressesFeature>()!.Addresses.First();
         return new GrpcHost(app, new Uri(bound.Replace("[::]", "[::1]", StringComparison.Ordinal).Replace("0.0.0.0", "127.0.0.1", StringComparison.Ordinal)));
     }

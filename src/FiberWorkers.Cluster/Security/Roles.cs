@@ -33,6 +33,7 @@ public static class Roles
         [CoordinatorService + "RegisterWorker"] = [Worker],
         [CoordinatorService + "Heartbeat"] = [Worker],
         [CoordinatorService + "FetchSweepSetup"] = [Worker],
+        [CoordinatorService + "DeregisterWorker"] = [Worker],
         [WorkerService + "RunTile"] = [Worker],
 
         // The coordinator forwards asks with its worker token; `ask --direct` sends them with a query token.

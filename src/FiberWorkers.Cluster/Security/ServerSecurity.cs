@@ -45,5 +45,5 @@ public sealed record ServerSecurity
 
     /// <summary>What is on, for the start-up log line (never token values).</summary>
     public string Describe() =>
-        $"{(Tls is null ? "plaintext" : Tls.ToString())}; {(Tokens is null ? (InsecureNoAuth ? "NO AUTHENTICATION (--insecure-no-auth)" : "no tokens") : $"{Tokens.Names.Count} tokens")}";
+        $"{(Tls is null ? "plaintext" : Tls.ToString())}; {(Tokens is null ? (InsecureNoAuth ? "NO AUTHENTICATION (--insecure-no-auth)" : "no tokens") : $"{Tokens.Names.Count} tokens")}; outgoing calls: {Outbound}";
 }

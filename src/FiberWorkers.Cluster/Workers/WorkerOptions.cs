@@ -30,6 +30,12 @@ public sealed record WorkerOptions
     /// </summary>
     public TimeSpan DrainTimeout { get; init; } = TimeSpan.FromSeconds(20);
 
+    /// <summary>
+    /// TLS of the listener, the tokens calls need (the coordinator's worker token; query tokens for direct asks), and
+    /// how the worker calls its coordinator (roots, client certificate, worker-role token). Default: none (loopback only).
+    /// </summary>
+    public FiberWorkers.Cluster.Security.ServerSecurity Security { get; init; } = FiberWorkers.Cluster.Security.ServerSecurity.None;
+
     /// <summary>Largest message accepted or sent, in bytes.</summary>
     public int MaxMessageBytes { get; init; } = 64 << 20;
 

@@ -41,11 +41,7 @@ public sealed class WorkerServer : IAsyncDisposable
         ArgumentNullException.ThrowIfNull(options);
         ArgumentNullException.ThrowIfNull(listen);
         ArgumentNullException.ThrowIfNull(log);
-        var channel = GrpcChannel.ForAddress(options.Coordinator, new GrpcChannelOptions
-        {
-            MaxReceiveMessageSize = options.MaxMessageBytes,
-            MaxSendMessageSize = options.MaxMessageBytes,
-        });
+        var channel = Security.ChannelSecurity.Open(options.Coordinator, options.Security.Outbound, options.MaxMessageBytes);
         var coordinator = new Coordinator.CoordinatorClient(channel);
         var runtime = new WorkerRuntime(options, coordinator, log);
         WorkerAgent? agent = null;
@@ -56,6 +52,7 @@ public sealed class WorkerServer : IAsyncDisposable
                 Logger = log,
                 MaxMessageBytes = options.MaxMessageBytes,
                 DrainTimeout = options.DrainTimeout,
+                Security = options.Security,
 
                 // A stopping worker is no longer ready, so orchestrators stop sending it clients.
                 Ready = () => agent?.Registered == true && !runtime.IsStopping,
