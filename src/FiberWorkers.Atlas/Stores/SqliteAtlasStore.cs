@@ -610,7 +610,9 @@ public sealed class SqliteAtlasStore : ISweepLedger
         var integrity = Query("PRAGMA integrity_check(1)", r => r.GetString(0))[0];
         if (integrity != "ok")
         {
-            throw new InputException(_source, string.Empty, $"the atlas file is damaged (integrity check: {integrity})");
+            // SQLite's report spans lines ("*** in database main ***" first); errors are one line each.
+            var report = string.Join("; ", integrity.Split('\n', StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries).Where(l => !l.StartsWith("***", StringComparison.Ordinal)));
+            throw new InputException(_source, string.Empty, $"the atlas file is damaged (integrity check: {report})");
         }
 
         Execute("PRAGMA journal_mode = WAL");
