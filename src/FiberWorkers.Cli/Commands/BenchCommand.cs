@@ -18,6 +18,7 @@ internal static class BenchCommand
     {
         var command = new Command("bench", "Measure solver throughput; prints JSON.");
         command.Subcommands.Add(CreateSolve(output));
+        command.Subcommands.Add(MonodromyBenchmark.Create(output));
         command.Subcommands.Add(CreateResolve(output));
         command.Subcommands.Add(CreateCluster(output));
         command.Subcommands.Add(CreateAsk(output));
@@ -82,7 +83,8 @@ internal static class BenchCommand
         var seconds = new Option<double>("--seconds") { Description = "How long to ask.", DefaultValueFactory = _ => 20 };
         var seed = new Option<long>("--seed") { Description = "Seed of the points.", DefaultValueFactory = _ => 7 };
         var command = new Command("ask", "Routed asks through a running coordinator from concurrent clients: throughput and p50/p99 latency.");
-        foreach (var option in new Option[] { coordinator, atlas, clients, seconds, seed })
+        var security = new ClientSecurityArguments();
+        foreach (var option in (Option[])[coordinator, atlas, clients, seconds, seed, .. security.Options])
         {
             command.Options.Add(option);
         }
@@ -91,8 +93,9 @@ internal static class BenchCommand
         {
             var count = parse.GetValue(clients) is >= 1 and <= 10_000 ? parse.GetValue(clients) : throw new UsageException("--clients must be between 1 and 10000");
             var duration = parse.GetValue(seconds) is >= 1 and <= 3600 ? parse.GetValue(seconds) : throw new UsageException("--seconds must be between 1 and 3600");
+            var url = ServeCommand.Url(parse.GetValue(coordinator)!, "--coordinator");
             var load = await ClusterBenchmark.AskAsync(
-                ServeCommand.Url(parse.GetValue(coordinator)!, "--coordinator"), parse.GetValue(atlas)!, count, duration, (ulong)Math.Max(0, parse.GetValue(seed)), cancellation).ConfigureAwait(false);
+                url, security.Resolve(parse, url, "--coordinator"), parse.GetValue(atlas)!, count, duration, (ulong)Math.Max(0, parse.GetValue(seed)), cancellation).ConfigureAwait(false);
             JsonOutput.Write(output, writer =>
             {
                 writer.WriteStartObject();

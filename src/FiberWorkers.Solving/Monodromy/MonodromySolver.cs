@@ -59,7 +59,7 @@ internal sealed class MonodromySolver
         // augmented base point the count is checked on the fiber after the homotopy to q = 0 (the augmented fiber
         // may be larger, and some of its solutions may go to infinity), whenever the augmented fiber has grown
         // by an eighth since the last check.
-        (IReadOnlyList<Complex[]> Fiber, int FinalPaths)? checkedFiber = null;
+        (IReadOnlyList<Complex[]> Fiber, int FinalPaths, int Failed)? checkedFiber = null;
         var checkedAt = 0;
         var checkPaths = 0;
         Func<List<Complex[]>, bool> complete = expected is not { } goal ? _ => false
@@ -81,8 +81,8 @@ internal sealed class MonodromySolver
 
         // Bring the base fiber to the family itself at p₀ when it was augmented.
         // A successful check ended the loops at once, so its fiber is the final one.
-        var (found, lastPaths) = checkedFiber is { } reached
-            ? (reached.Fiber, 0)
+        var (found, lastPaths, finalFailures) = checkedFiber is { } reached
+            ? (reached.Fiber, 0, reached.Failed)
             : FiberAtBase(solver, system, familyHash, augmented, basis, parameters, solutions, phase.Tracks, random);
         var finalPaths = checkPaths + lastPaths;
         var fiber = found.ToList();
@@ -92,7 +92,12 @@ internal sealed class MonodromySolver
         var stall = phase.Stall;
         var trace = phase.Trace;
         var skipped = phase.Skipped;
-        if (augmented && fiber.Count > 0 && _system.ParameterCount > 0 && !(fiber.Count >= expected))
+        // A complete augmented fiber (the trace test passed) carried to q = 0 with no path failed reaches every
+        // isolated solution of the family's fiber (Morgan & Sommese 1989): paths that leave for infinity end at no
+        // solution of it. Only failed paths can lose solutions, and only then do loops in the family's own
+        // parameters search for them.
+        var carried = trace is { Passed: true } && finalFailures == 0;
+        if (augmented && fiber.Count > 0 && _system.ParameterCount > 0 && !(fiber.Count >= expected) && !carried)
         {
             // The homotopy to q = 0 can lose solutions whose paths meet singularities or escape; loops in the
             // family's own parameters, started from the fiber it reached, find them again wherever the family's
@@ -147,7 +152,7 @@ internal sealed class MonodromySolver
     /// <summary>Loop endpoints of the same solution agree to about the tracker's accuracy; merge within this.</summary>
     private const double MergeTolerance = 1e-7;
 
-    private (IReadOnlyList<Complex[]> Fiber, int FinalPaths) FiberAtBase(
+    private (IReadOnlyList<Complex[]> Fiber, int FinalPaths, int Failed) FiberAtBase(
         FiberSolver solver,
         PolynomialSystem system,
         string familyHash,
@@ -162,7 +167,7 @@ internal sealed class MonodromySolver
         // ill-conditioned ones that double precision cannot certify (dropping one would lose its paths forever).
         if (!augmented)
         {
-            return ([.. solutions], 0);
+            return ([.. solutions], 0, 0);
         }
 
         var target = new Complex[basis.Length];
@@ -194,7 +199,7 @@ internal sealed class MonodromySolver
             failures = there.StatusCounts[PathStatus.Failed] + back.StatusCounts[PathStatus.Failed];
         }
 
-        return (fiber, paths);
+        return (fiber, paths, failures);
     }
 
     /// <summary>Detours tried when paths of the final homotopy fail.</summary>

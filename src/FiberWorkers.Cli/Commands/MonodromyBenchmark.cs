@@ -1,0 +1,87 @@
+using System.CommandLine;
+using System.Diagnostics;
+using FiberWorkers.Cli.Examples;
+using FiberWorkers.Cli.Output;
+using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.StartFibers;
+
+namespace FiberWorkers.Cli.Commands;
+
+/// <summary>
+/// <c>fiber bench monodromy</c>: time to the generic fiber of a bundled family by monodromy and by a total-degree
+/// solve at the same generic point, in one run, with the paths each tracked and the ratio.
+/// </summary>
+internal static class MonodromyBenchmark
+{
+    public static Command Create(TextWriter output)
+    {
+        var example = new Option<string>("--example") { Description = "The bundled family.", DefaultValueFactory = _ => "microgrid5" };
+        var seed = new Option<int>("--seed") { Description = "Seed of every random choice.", DefaultValueFactory = _ => 1 };
+        var threads = new Option<int>("--threads") { Description = "Threads that track paths (default: all cores).", DefaultValueFactory = _ => Environment.ProcessorCount };
+        var command = new Command("monodromy", "Time to a family's generic fiber by monodromy vs total degree at the same point; paths tracked by each.");
+        command.Options.Add(example);
+        command.Options.Add(seed);
+        command.Options.Add(threads);
+        command.SetAction(parse =>
+        {
+            var name = parse.GetValue(example)!;
+            if (!ExampleCatalog.Names.Contains(name))
+            {
+                throw new UsageException($"--example: no bundled example '{name}' (see 'fiber examples')");
+            }
+
+            var count = parse.GetValue(threads);
+            if (count is < 1 or > 4096)
+            {
+                throw new UsageException($"--threads must be between 1 and 4096, got {count}");
+            }
+
+            var family = ExampleCatalog.Load(name);
+            var options = SolveOptions.Default with { Seed = parse.GetValue(seed), MaxDegreeOfParallelism = count };
+            StartFiberResult Run(StartFiberMethod method, SolveOptions settings) =>
+                StartFiberFactory.Create(family.System, family.ContentHash, family.Parameters, method, settings, rootCountHint: family.RootCount);
+
+            // Warm the JIT on a run of both methods at another seed, so neither pays for compilation in the figures.
+            Run(StartFiberMethod.Monodromy, options with { Seed = options.Seed + 1 });
+            Run(StartFiberMethod.TotalDegree, options with { Seed = options.Seed + 1 });
+
+            // Same seed: both reach the fiber over the same generic point.
+            var clock = Stopwatch.StartNew();
+            var monodromy = Run(StartFiberMethod.Monodromy, options);
+            var monodromySeconds = clock.Elapsed.TotalSeconds;
+            clock.Restart();
+            var total = Run(StartFiberMethod.TotalDegree, options);
+            var totalSeconds = clock.Elapsed.TotalSeconds;
+            var report = monodromy.Monodromy!;
+
+            JsonOutput.Write(output, writer =>
+            {
+                writer.WriteStartObject();
+                MachineDescription.Write(writer);
+                writer.WriteString("family", name);
+                writer.WriteNumber("threads", count);
+                writer.WriteStartObject("monodromy");
+                writer.WriteNumber("seconds", Math.Round(monodromySeconds, 3));
+                writer.WriteNumber("rootCount", monodromy.Fiber.RootCount);
+                writer.WriteNumber("loops", report.Loops);
+                writer.WriteNumber("loopTracks", report.LoopTracks);
+                writer.WriteNumber("segmentPaths", (3 * report.LoopTracks) + report.FinalPaths);
+                writer.WriteNumber("failedTracks", report.FailedTracks);
+                writer.WriteBoolean("augmented", report.Augmented);
+                writer.WriteString("completeness", report.Completeness);
+                writer.WriteEndObject();
+                writer.WriteStartObject("totalDegree");
+                writer.WriteNumber("seconds", Math.Round(totalSeconds, 3));
+                writer.WriteNumber("paths", total.Fiber.Provenance.PathsTracked);
+                writer.WriteNumber("rootCount", total.Fiber.RootCount);
+                writer.WriteString("completeness", total.Fiber.Provenance.Completeness);
+                writer.WriteEndObject();
+                writer.WriteNumber("speedup", Math.Round(totalSeconds / monodromySeconds, 2));
+                writer.WriteBoolean("sameRootCount", monodromy.Fiber.RootCount == total.Fiber.RootCount);
+                writer.WriteEndObject();
+            });
+            return CommandLine.Success;
+        });
+        return command;
+    }
+}
