@@ -12,7 +12,11 @@ internal sealed class TenantProgressWriter(IServerStreamWriter<SweepProgressUpda
         set => inner.WriteOptions = value;
     }
 
-    public Task WriteAsync(SweepProgressUpdate message)
+    public Task WriteAsync(SweepProgressUpdate message) => inner.WriteAsync(Outward(message));
+
+    public Task WriteAsync(SweepProgressUpdate message, CancellationToken cancellationToken) => inner.WriteAsync(Outward(message), cancellationToken);
+
+    private SweepProgressUpdate Outward(SweepProgressUpdate message)
     {
         ArgumentNullException.ThrowIfNull(message);
         var outward = message.Clone();
@@ -22,6 +26,6 @@ internal sealed class TenantProgressWriter(IServerStreamWriter<SweepProgressUpda
             outcome.AtlasId = TenantScope.Outside(caller, outcome.AtlasId);
         }
 
-        return inner.WriteAsync(outward);
+        return outward;
     }
 }
