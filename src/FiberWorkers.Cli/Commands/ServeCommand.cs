@@ -52,6 +52,9 @@ internal static class ServeCommand
             command.Options.Add(option);
         }
 
+        var limits = ServeLimits.ForCoordinator();
+        limits.AddTo(command);
+
         command.SetAction(async (parse, cancellation) =>
         {
             var address = Listen(parse.GetValue(listen)!);
@@ -64,6 +67,8 @@ internal static class ServeCommand
                 StartFiberThreads = Range(parse.GetValue(threads), 1, 4096, "--threads"),
                 DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
             };
+            var (requestLimits, messageBytes) = limits.Read(parse);
+            options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "coordinator");
             using var ledger = LedgerStores.Open(parse.GetValue(store)!);
             var server = await Start(() => CoordinatorServer.StartAsync(ledger, options, address, log, cancellation), address, error).ConfigureAwait(false);
@@ -95,6 +100,9 @@ internal static class ServeCommand
             command.Options.Add(option);
         }
 
+        var limits = ServeLimits.ForWorker();
+        limits.AddTo(command);
+
         command.SetAction(async (parse, cancellation) =>
         {
             var address = Listen(parse.GetValue(listen)!);
@@ -109,6 +117,8 @@ internal static class ServeCommand
                 Fault = Environment.GetEnvironmentVariable("FIBER_WORKER_FAULT") is { Length: > 0 } fault ? fault : null,
                 DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
             };
+            var (requestLimits, messageBytes) = limits.Read(parse);
+            options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
             if (address.IsAny && options.Advertise is null)
             {
                 throw new UsageException($"--listen {address} binds every interface: give --advertise http://HOST:{address.Port} with the address others reach this worker at");

@@ -80,6 +80,9 @@ public sealed class AtlasCatalog
         _store = store;
     }
 
+    /// <summary>Limits the families read back from the store are parsed under (those the coordinator accepts).</summary>
+    public FamilyLimits FamilyLimits { get; init; } = FamilyLimits.Default;
+
     /// <summary>How long "latest version" answers are reused before the store is asked again.</summary>
     public TimeSpan LatestCache { get; init; } = TimeSpan.FromSeconds(1);
 
@@ -239,7 +242,7 @@ public sealed class AtlasCatalog
         }
 
         var (_, json) = _store.Family(atlasId) ?? throw new RpcException(new Status(StatusCode.NotFound, $"atlas_id: no atlas '{atlasId}' in the store"));
-        family = FamilyReader.Parse(json, $"atlas {atlasId} (family)");
+        family = FamilyReader.Parse(json, $"atlas {atlasId} (family)", FamilyLimits);
         return _families.GetOrAdd(atlasId, family);
     }
 

@@ -1,3 +1,5 @@
+using FiberWorkers.Cluster.Contracts;
+
 namespace FiberWorkers.Cluster.Coordination;
 
 /// <summary>How the coordinator schedules, retries and routes. Nothing here shapes atlas content.</summary>
@@ -50,6 +52,12 @@ public sealed record CoordinatorOptions
     /// </summary>
     public FiberWorkers.Cluster.Security.ServerSecurity Security { get; init; } = FiberWorkers.Cluster.Security.ServerSecurity.None;
 
-    /// <summary>Largest message accepted or sent, in bytes.</summary>
+    /// <summary>
+    /// Largest message accepted or sent, in bytes (option <c>max-message-bytes</c>); a larger request is refused with
+    /// ResourceExhausted naming the limit. Default 64 MiB (shards of dense atlases run to tens of megabytes).
+    /// </summary>
     public int MaxMessageBytes { get; init; } = 64 << 20;
+
+    /// <summary>Limits checked on every request before any work (see <see cref="RequestLimits"/>). Default <see cref="RequestLimits.Default"/>.</summary>
+    public RequestLimits Limits { get; init; } = RequestLimits.Default;
 }

@@ -44,7 +44,7 @@ public sealed class CoordinatorServer : IAsyncDisposable
         ArgumentNullException.ThrowIfNull(listen);
         ArgumentNullException.ThrowIfNull(log);
         var pool = new WorkerPool(options, log);
-        var catalog = new AtlasCatalog(ledger);
+        var catalog = new AtlasCatalog(ledger) { FamilyLimits = options.Limits.Family };
         var dispatcher = new TileDispatcher(pool, ledger, options, log);
         var sweeps = new SweepManager(ledger, dispatcher, pool, catalog, options, log);
         var router = new AskRouter(pool, catalog, options, log);
@@ -57,6 +57,7 @@ public sealed class CoordinatorServer : IAsyncDisposable
                 services.AddSingleton(catalog);
                 services.AddSingleton(sweeps);
                 services.AddSingleton(router);
+                services.AddSingleton(new QueryRateLimiter(options.Limits));
             },
             app => app.MapGrpcService<CoordinatorService>(),
             cancellation).ConfigureAwait(false);

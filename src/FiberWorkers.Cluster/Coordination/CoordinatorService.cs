@@ -1,4 +1,5 @@
 using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Contracts.V1;
 using Grpc.Core;
 
@@ -12,32 +13,31 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
     private readonly AtlasCatalog _catalog;
     private readonly AskRouter _router;
     private readonly CoordinatorOptions _options;
+    private readonly QueryRateLimiter _queries;
 
-    public CoordinatorService(SweepManager sweeps, WorkerPool pool, AtlasCatalog catalog, AskRouter router, CoordinatorOptions options)
+    public CoordinatorService(SweepManager sweeps, WorkerPool pool, AtlasCatalog catalog, AskRouter router, CoordinatorOptions options, QueryRateLimiter queries)
     {
         _sweeps = sweeps;
         _pool = pool;
         _catalog = catalog;
         _router = router;
         _options = options;
+        _queries = queries;
     }
 
     public override Task<SubmitSweepReply> SubmitSweep(SubmitSweepRequest request, ServerCallContext context) =>
-        Task.Run(() => _sweeps.Submit(request), context.CancellationToken);
+        Task.Run(() => _sweeps.Submit(request, Caller.Key(context)), context.CancellationToken);
 
     public override Task WatchSweep(WatchSweepRequest request, IServerStreamWriter<SweepProgressUpdate> responseStream, ServerCallContext context)
     {
-        if (request.SweepId <= 0)
-        {
-            throw RequestChecks.Invalid("sweep_id", $"must be a sweep id (positive), got {request.SweepId}");
-        }
-
+        RequestChecks.WatchSweep(request);
         return _sweeps.WatchAsync(request.SweepId, responseStream, context.CancellationToken);
     }
 
     public override Task<ListVersionsReply> ListVersions(ListVersionsRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.AtlasId, "atlas_id", required: false);
+        _queries.Take(Caller.Key(context));
+        RequestChecks.ListVersions(request);
         var reply = new ListVersionsReply();
         reply.Versions.Add(_catalog.Versions(request.AtlasId));
         return Task.FromResult(reply);
@@ -45,13 +45,17 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
 
     public override Task<TileShard> FetchShard(ShardRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.AtlasId, "atlas_id");
-        RequestChecks.Version(request.Version, "version");
-        var root = RequestChecks.RootTile(request.TileKey, "tile_key");
-        return Task.Run(() => _catalog.Shard(_catalog.View(request.AtlasId, request.Version), root), context.CancellationToken);
+        _queries.Take(Caller.Key(context));
+        var root = RequestChecks.FetchShard(request);
+        return Task.Run(() => ShardWithin(_catalog.Shard(_catalog.View(request.AtlasId, request.Version), root)), context.CancellationToken);
     }
 
-    public override Task<AskReply> Ask(AskRequest request, ServerCallContext context) => _router.AskAsync(request, context.CancellationToken);
+    public override Task<AskReply> Ask(AskRequest request, ServerCallContext context)
+    {
+        _queries.Take(Caller.Key(context));
+        RequestChecks.Ask(request, _options.Limits);
+        return _router.AskAsync(request, context.CancellationToken);
+    }
 
     public override Task<ListWorkersReply> ListWorkers(ListWorkersRequest request, ServerCallContext context)
     {
@@ -62,27 +66,31 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
 
     public override Task<RegisterWorkerReply> RegisterWorker(RegisterWorkerRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.WorkerId, "worker_id");
-        var address = RequestChecks.Address(request.Address, "address");
-        if (request.Threads is < 1 or > 4096)
-        {
-            throw RequestChecks.Invalid("threads", $"must be between 1 and 4096, got {request.Threads}");
-        }
-
+        var address = RequestChecks.RegisterWorker(request);
         _pool.Register(request.WorkerId, address, request.Threads);
         return Task.FromResult(new RegisterWorkerReply { HeartbeatSeconds = _options.Heartbeat.TotalSeconds });
     }
 
     public override Task<HeartbeatReply> Heartbeat(HeartbeatRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.WorkerId, "worker_id");
+        RequestChecks.Heartbeat(request);
         return Task.FromResult(new HeartbeatReply { Known = _pool.Heartbeat(request.WorkerId) });
     }
 
     public override Task<SweepSetup> FetchSweepSetup(SweepSetupRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.FamilyHash, "family_hash");
-        RequestChecks.Settings(request.Settings, "settings");
+        RequestChecks.FetchSweepSetup(request, _options.Limits);
         return Task.FromResult(_catalog.Setup(request.FamilyHash, request.Settings));
+    }
+
+    /// <summary>A shard too large to send is refused naming the limit, rather than failing in the transport.</summary>
+    private TileShard ShardWithin(TileShard shard)
+    {
+        var size = shard.CalculateSize();
+        return size <= _options.MaxMessageBytes
+            ? shard
+            : throw new RpcException(new Status(
+                StatusCode.ResourceExhausted,
+                $"shard {shard.TileKey} of atlas {shard.AtlasId}: {size} bytes exceeds the limit max-message-bytes = {_options.MaxMessageBytes}"));
     }
 }

@@ -24,6 +24,7 @@ public sealed class SweepManager : IDisposable
     private readonly CoordinatorOptions _options;
     private readonly ILogger _log;
     private readonly Lock _gate = new();
+    private readonly Lock _admission = new();
     private readonly Dictionary<long, SweepRun> _runs = [];
     private readonly CancellationTokenSource _stopping = new();
 
@@ -37,9 +38,6 @@ public sealed class SweepManager : IDisposable
         _log = log;
     }
 
-    /// <summary>Family limits applied to submitted families.</summary>
-    public FamilyLimits Limits { get; init; } = FamilyLimits.Default;
-
     /// <summary>Sweeps running in this process.</summary>
     public int Running
     {
@@ -52,14 +50,27 @@ public sealed class SweepManager : IDisposable
         }
     }
 
-    /// <summary>Validates and starts (or joins) a sweep.</summary>
-    public SubmitSweepReply Submit(SubmitSweepRequest request)
+    /// <summary>
+    /// Validates and starts (or joins) a sweep. <paramref name="caller"/> (see <c>Caller.Key</c>) may have at most
+    /// <see cref="RequestLimits.MaxConcurrentSweeps"/> sweeps running; joining one that runs does not count. Null:
+    /// not counted (sweeps resumed after a restart, in-process callers).
+    /// </summary>
+    public SubmitSweepReply Submit(SubmitSweepRequest request, string? caller = null)
     {
         ArgumentNullException.ThrowIfNull(request);
         var (family, options) = Parse(request);
-        var (atlasId, sweepId) = new SweepRunner(_ledger).Begin(family, options);
-        _ledger.SaveSweepRequest(sweepId, atlasId, request.ToByteArray());
-        var started = Start(sweepId, atlasId, family, options);
+        long sweepId;
+        string atlasId;
+        bool started;
+        lock (_admission)
+        {
+            // Held from the count to the start, so two submissions of one caller cannot both take the last slot.
+            Admit(caller, SweepRunner.AtlasIdOf(family), options.CanonicalText);
+            (atlasId, sweepId) = new SweepRunner(_ledger).Begin(family, options);
+            _ledger.SaveSweepRequest(sweepId, atlasId, request.ToByteArray());
+            started = Start(sweepId, atlasId, family, options, caller);
+        }
+
         _log.Information("sweep {SweepId} of atlas {AtlasId} ({Family}) submitted: {Options}; {Action}",
             sweepId, atlasId, family.Name, options.CanonicalText, started ? "started" : "already running");
         return new SubmitSweepReply { AtlasId = atlasId, SweepId = sweepId, Started = started };
@@ -153,40 +164,36 @@ public sealed class SweepManager : IDisposable
 
     private (FamilyDefinition Family, SweepOptions Options) Parse(SubmitSweepRequest request)
     {
-        RequestChecks.Settings(request.Settings, "settings");
-        RequestChecks.Id(request.Source, "source", required: false);
-        if (string.IsNullOrWhiteSpace(request.FamilyJson))
+        var submission = RequestChecks.SubmitSweep(request, _options.Limits, _options.StartFiberThreads);
+        return (submission.Family, submission.Options);
+    }
+
+    /// <summary>Refuses (ResourceExhausted) a new sweep of a caller who already has the most running.</summary>
+    private void Admit(string? caller, string atlasId, string optionsText)
+    {
+        if (caller is null)
         {
-            throw RequestChecks.Invalid("family_json", "is required (the family file's JSON text)");
+            return;
         }
 
-        var source = string.IsNullOrEmpty(request.Source) ? "submitted family" : request.Source;
-        FamilyDefinition family;
-        try
+        lock (_gate)
         {
-            family = FamilyReader.Parse(request.FamilyJson, source, Limits);
-        }
-        catch (InputException e)
-        {
-            throw RequestChecks.Invalid("family_json", e.Message);
-        }
+            if (_runs.Values.Any(r => !r.Done && r.AtlasId == atlasId && r.OptionsText == optionsText))
+            {
+                return;
+            }
 
-        if (family.Parameters.Count == 0)
-        {
-            throw RequestChecks.Invalid("family_json", $"{source}: a sweep needs at least one parameter with a box");
-        }
-
-        try
-        {
-            return (family, Conversions.ToOptions(request.Settings, family.Parameters.Count, _options.StartFiberThreads));
-        }
-        catch (ArgumentException e)
-        {
-            throw RequestChecks.Invalid("settings", e.Message);
+            var running = _runs.Values.Count(r => !r.Done && r.Caller == caller);
+            if (running >= _options.Limits.MaxConcurrentSweeps)
+            {
+                throw new RpcException(new Status(
+                    StatusCode.ResourceExhausted,
+                    $"sweep: {caller} already has {running} sweeps running, the limit max-concurrent-sweeps = {_options.Limits.MaxConcurrentSweeps}; wait for one to finish"));
+            }
         }
     }
 
-    private bool Start(long sweepId, string atlasId, FamilyDefinition family, SweepOptions options)
+    private bool Start(long sweepId, string atlasId, FamilyDefinition family, SweepOptions options, string? caller = null)
     {
         SweepRun run;
         lock (_gate)
@@ -196,7 +203,7 @@ public sealed class SweepManager : IDisposable
                 return false;
             }
 
-            run = new SweepRun(sweepId, atlasId);
+            run = new SweepRun(sweepId, atlasId) { Caller = caller, OptionsText = options.CanonicalText };
             _runs[sweepId] = run;
         }
 
@@ -262,6 +269,12 @@ public sealed class SweepManager : IDisposable
         public long SweepId { get; } = sweepId;
 
         public string AtlasId { get; } = atlasId;
+
+        /// <summary>Who started it (counted against their concurrent sweeps); null when not counted.</summary>
+        public string? Caller { get; init; }
+
+        /// <summary>The sweep's canonical options text (a submission with the same atlas and text joins it).</summary>
+        public string OptionsText { get; init; } = string.Empty;
 
         public Task? Task { get; set; }
 

@@ -74,7 +74,8 @@ public sealed class GrpcHost : IAsyncDisposable
         builder.WebHost.ConfigureKestrel(kestrel =>
         {
             kestrel.AddServerHeader = false;
-            kestrel.Limits.MaxRequestBodySize = settings.MaxMessageBytes;
+            // A message and its 5-byte gRPC frame header; MessageSizeLimit refuses larger messages by name first.
+            kestrel.Limits.MaxRequestBodySize = settings.MaxMessageBytes + 5L;
             kestrel.Listen(settings.Listen.Address, settings.Listen.Port, endpoint =>
             {
                 endpoint.Protocols = HttpProtocols.Http2;
@@ -104,6 +105,7 @@ public sealed class GrpcHost : IAsyncDisposable
             .AddCheck("ready", () => ready() ? HealthCheckResult.Healthy() : HealthCheckResult.Unhealthy("not ready"), ["ready"]);
         services(builder.Services);
         var app = builder.Build();
+        app.Use(MessageSizeLimit.Create(settings.MaxMessageBytes));
         map(app);
         if (settings.Stopping is { } stopping)
         {

@@ -65,9 +65,7 @@ public sealed class WorkerRuntime
     public async Task<TileOutcome> RunTileAsync(TileTask task, CancellationToken cancellation)
     {
         ArgumentNullException.ThrowIfNull(task);
-        RequestChecks.Id(task.FamilyHash, "family_hash");
-        RequestChecks.Settings(task.Settings, "settings");
-        var key = RequestChecks.Tile(task.TileKey, "tile_key");
+        var key = RequestChecks.RunTile(task, _options.Limits);
         if (_stopping)
         {
             throw new RpcException(new Status(StatusCode.Unavailable, $"worker {Id} is stopping"));
@@ -82,6 +80,9 @@ public sealed class WorkerRuntime
         try
         {
             var context = await _setups.GetAsync(SetupKey(task), _ => LoadSetupAsync(task, cancellation)).ConfigureAwait(false);
+            RequestChecks.StartFiberPaths(context.FamilyStart.RootCount, "family", _options.Limits, $"tile {key}");
+            RequestChecks.StartFiberPaths(context.FoldStart.RootCount, "folds", _options.Limits, $"tile {key}");
+            RequestChecks.StartFiberPaths(context.PassageStart.RootCount, "passages", _options.Limits, $"tile {key}");
             if (!key.FitsIn(context.Options.Divisions))
             {
                 throw RequestChecks.Invalid("tile_key", $"{key} lies outside the {string.Join('x', context.Options.Divisions)} grid");
@@ -110,14 +111,8 @@ public sealed class WorkerRuntime
     public async Task<AskReply> ResolveAsync(ResolveRequest request, CancellationToken cancellation)
     {
         ArgumentNullException.ThrowIfNull(request);
-        var ask = request.Ask ?? throw RequestChecks.Invalid("ask", "is required");
-        RequestChecks.Id(ask.AtlasId, "ask.atlas_id");
-        RequestChecks.Id(ask.RequestId, "ask.request_id", required: false);
-        var tile = RequestChecks.RootTile(request.TileKey, "tile_key");
-        if (request.Version < 1)
-        {
-            throw RequestChecks.Invalid("version", $"must name a committed version (1 or more), got {request.Version}");
-        }
+        var tile = RequestChecks.Resolve(request, _options.Limits);
+        var ask = request.Ask;
 
         if (Interlocked.Increment(ref _resolvesWaiting) > _options.ResolveQueue)
         {
@@ -180,6 +175,7 @@ public sealed class WorkerRuntime
         var shard = await _coordinator.FetchShardAsync(new ShardRequest { AtlasId = atlasId, Version = version, TileKey = tile }, cancellationToken: cancellation).ConfigureAwait(false);
         var family = Family(shard.FamilyJson, shard.FamilyHash);
         var start = Fiber(shard.StartFiber, "family", family.ContentHash);
+        RequestChecks.StartFiberPaths(start.RootCount, "family", _options.Limits, $"resolve in tile {tile}");
         var info = new AtlasVersionInfo(shard.Version, null, "shard", DateTimeOffset.UnixEpoch, string.Empty, shard.ContentHash, "{}");
         var snapshot = AtlasSnapshot.FromTiles(atlasId, family, info, [.. shard.Tiles]);
         var solver = new FiberSolver(family.System, SolveOptions.Default with { MaxDegreeOfParallelism = 1 });
@@ -198,7 +194,7 @@ public sealed class WorkerRuntime
         FamilyDefinition family;
         try
         {
-            family = FamilyReader.Parse(json, "the family sent by the coordinator");
+            family = FamilyReader.Parse(json, "the family sent by the coordinator", _options.Limits.Family);
         }
         catch (InputException e)
         {

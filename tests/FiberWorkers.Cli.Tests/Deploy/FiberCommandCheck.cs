@@ -51,6 +51,7 @@ internal sealed partial class FiberCommandCheck
     public static readonly string[] Deployed = ["serve coordinator", "serve worker", "sweep", "ask"];
 
     private const string ServeSource = "src/FiberWorkers.Cli/Commands/ServeCommand.cs";
+    private const string ServeLimitsSource = "src/FiberWorkers.Cli/Commands/ServeLimits.cs";
     private const string SweepSource = "src/FiberWorkers.Cli/Commands/SweepCommand.cs";
 
     private readonly RootCommand _root = CommandLine.Build(TextWriter.Null, TextWriter.Null);
@@ -60,6 +61,12 @@ internal sealed partial class FiberCommandCheck
     public FiberCommandCheck(DeployFiles files, List<string> problems)
     {
         _serveRanges = Ranges(files, ServeSource, problems);
+
+        // The request-limit options of both servers are validated in their own file.
+        foreach (var (option, range) in Ranges(files, ServeLimitsSource, problems))
+        {
+            _serveRanges[option] = range;
+        }
         _sweepRanges = Ranges(files, SweepSource, problems);
 
         // Every numeric option of a server must have a range this check can read, or a value outside it would pass here

@@ -147,7 +147,7 @@ public sealed class InProcessClusterTests : IAsyncLifetime
         { "json", "family_json: " },
         { "equation", "equation 1" },
         { "divisions", "settings: 3 tile divisions given for 2 parameters" },
-        { "lines", "settings: " },
+        { "lines", "settings.lines_per_tile: must be between 1 and 10000, got 0" },
         { "method", "settings.start_method must be auto, total-degree or monodromy" },
         { "missing", "settings: is required" },
     };

@@ -1,4 +1,4 @@
-using FiberWorkers.Algebra.Families;
+using FiberWorkers.Cluster.Contracts;
 using FiberWorkers.Contracts.V1;
 using FiberWorkers.Fuzz.Tests.Engine;
 using Google.Protobuf;
@@ -9,10 +9,11 @@ namespace FiberWorkers.Fuzz.Tests.Decoding;
 /// Every request message of cluster.proto, and atlas.proto's <see cref="TileResult"/> (tile payloads travel between
 /// coordinator and workers and are read back from stores), each with valid samples and its validator.
 /// <para>
-/// Plugging in a request validator: set the <c>Validate</c> argument of that message's entry below to the
-/// service's check, e.g. <c>Validate: m => MyChecks.Submit((SubmitSweepRequest)m)</c>. The decoding fuzz then
-/// runs it on every mutant that decodes and requires it to reject only with an <c>InputException</c> or an
-/// <c>RpcException</c> of a status in <see cref="MessageFuzzTarget.RejectionCodes"/>.
+/// Each request runs through the checks its service calls (<see cref="RequestChecks"/>, under the servers' default
+/// <see cref="RequestLimits"/>): the decoding fuzz runs them on every mutant that decodes and requires them to reject
+/// only with an <c>InputException</c> or an <c>RpcException</c> of a status in <see cref="MessageFuzzTarget.RejectionCodes"/>.
+/// ListWorkersRequest has no fields to check; TileResult is checked against its sweep (<c>TileChecks</c>), which a
+/// decoded message alone does not give.
 /// </para>
 /// </summary>
 internal static class DecodingTargets
@@ -25,15 +26,8 @@ internal static class DecodingTargets
     public static MessageFuzzTarget Get(string name) =>
         All.FirstOrDefault(t => t.Name == name) ?? throw new ArgumentException($"no decoding target {name}", nameof(name));
 
-    /// <summary>
-    /// Until the coordinator's own validator is plugged in: the family JSON a submission carries goes through the
-    /// family reader under the request's source name, which must reject bad families with an <see cref="InputException"/>.
-    /// </summary>
-    internal static void CheckSubmittedFamily(IMessage message)
-    {
-        var request = (SubmitSweepRequest)message;
-        FamilyReader.Parse(request.FamilyJson, request.Source.Length > 0 ? request.Source : "request");
-    }
+    /// <summary>The limits the validators run under: the servers' defaults.</summary>
+    internal static RequestLimits Limits => RequestLimits.Default;
 
     private static List<MessageFuzzTarget> Build()
     {
@@ -64,28 +58,37 @@ internal static class DecodingTargets
                 new SubmitSweepRequest { FamilyJson = "{}", Settings = new SweepSettings() },
                 new SubmitSweepRequest { FamilyJson = familyJson, Source = "é ✓ ünïcode.json" },
             ],
-            Validate: CheckSubmittedFamily),
+            Validate: m => RequestChecks.SubmitSweep((SubmitSweepRequest)m, Limits)),
             new("WatchSweepRequest", WatchSweepRequest.Parser,
-                [new WatchSweepRequest { SweepId = 42 }, new WatchSweepRequest { SweepId = -1 }, new WatchSweepRequest { SweepId = long.MaxValue }]),
+                [new WatchSweepRequest { SweepId = 42 }, new WatchSweepRequest { SweepId = -1 }, new WatchSweepRequest { SweepId = long.MaxValue }],
+                Validate: m => RequestChecks.WatchSweep((WatchSweepRequest)m)),
             new("ListVersionsRequest", ListVersionsRequest.Parser,
-                [new ListVersionsRequest { AtlasId = "a0123456789abcde" }, new ListVersionsRequest()]),
+                [new ListVersionsRequest { AtlasId = "a0123456789abcde" }, new ListVersionsRequest()],
+                Validate: m => RequestChecks.ListVersions((ListVersionsRequest)m)),
             new("ShardRequest", ShardRequest.Parser,
-                [new ShardRequest { AtlasId = "a0123456789abcde", Version = 3, TileKey = "L0:3,1" }, new ShardRequest { TileKey = "L2:15,0,7" }]),
-            new("AskRequest", AskRequest.Parser, [ask, new AskRequest { Point = { double.NaN, double.PositiveInfinity } }]),
+                [new ShardRequest { AtlasId = "a0123456789abcde", Version = 3, TileKey = "L0:3,1" }, new ShardRequest { TileKey = "L2:15,0,7" }],
+                Validate: m => RequestChecks.FetchShard((ShardRequest)m)),
+            new("AskRequest", AskRequest.Parser, [ask, new AskRequest { Point = { double.NaN, double.PositiveInfinity } }],
+                Validate: m => RequestChecks.Ask((AskRequest)m, Limits)),
             new("RegisterWorkerRequest", RegisterWorkerRequest.Parser,
-                [new RegisterWorkerRequest { WorkerId = "w-1", Address = "http://10.0.0.7:7401", Threads = 2 }, new RegisterWorkerRequest { Threads = -5 }]),
+                [new RegisterWorkerRequest { WorkerId = "w-1", Address = "http://10.0.0.7:7401", Threads = 2 }, new RegisterWorkerRequest { Threads = -5 }],
+                Validate: m => RequestChecks.RegisterWorker((RegisterWorkerRequest)m)),
             new("HeartbeatRequest", HeartbeatRequest.Parser,
-                [new HeartbeatRequest { WorkerId = "w-1", TilesRunning = 2, ResolvesQueued = 1000 }, new HeartbeatRequest { TilesRunning = int.MinValue }]),
+                [new HeartbeatRequest { WorkerId = "w-1", TilesRunning = 2, ResolvesQueued = 1000 }, new HeartbeatRequest { TilesRunning = int.MinValue }],
+                Validate: m => RequestChecks.Heartbeat((HeartbeatRequest)m)),
             new("ListWorkersRequest", ListWorkersRequest.Parser, [new ListWorkersRequest()]),
             new("SweepSetupRequest", SweepSetupRequest.Parser,
-                [new SweepSetupRequest { FamilyHash = new string('f', 64), Settings = settings }, new SweepSetupRequest()]),
+                [new SweepSetupRequest { FamilyHash = new string('f', 64), Settings = settings }, new SweepSetupRequest()],
+                Validate: m => RequestChecks.FetchSweepSetup((SweepSetupRequest)m, Limits)),
             new("TileTask", TileTask.Parser,
             [
                 new TileTask { SweepId = 7, FamilyHash = new string('0', 64), Settings = settings, TileKey = "L1:2,3", Attempt = 1 },
                 new TileTask { Settings = new SweepSettings { Divisions = { int.MaxValue, -1, 0 } } },
-            ]),
+            ],
+            Validate: m => RequestChecks.RunTile((TileTask)m, Limits)),
             new("ResolveRequest", ResolveRequest.Parser,
-                [new ResolveRequest { Ask = ask, TileKey = "L0:1,1", Version = 3 }, new ResolveRequest { Ask = new AskRequest() }]),
+                [new ResolveRequest { Ask = ask, TileKey = "L0:1,1", Version = 3 }, new ResolveRequest { Ask = new AskRequest() }],
+                Validate: m => RequestChecks.Resolve((ResolveRequest)m, Limits)),
             new("TileResult", TileResult.Parser, [SampleTile(), new TileResult()]),
         ];
     }
