@@ -14,7 +14,10 @@ namespace FiberWorkers.Atlas.Sampling;
 /// interval. δ is measured perpendicular to the locus where its normal is known (at finite folds, from the left null
 /// vector of ∂F/∂x): a line that grazes the locus would otherwise put "near-boundary" points far closer to it than δ,
 /// where no classifier can tell the sides apart from neighbours. The offset along the line is δ/cos φ (φ the angle
-/// between line and normal), at most a quarter of the neighbouring interval. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
+/// between line and normal), at most a quarter of the neighbouring interval. Where that quarter cannot hold a point
+/// at least δ/2 from the crossing (two crossings close together on a line that nearly touches the locus), or where
+/// the line grazes the locus (|cos φ| &lt; 0.05), no near-boundary point is placed on that side: it would sit far
+/// closer than δ, and the interval's midpoint labels the interval anyway. Passages through infinity split intervals (real-only tracking in affine coordinates cannot cross
 /// them) but are not boundaries: the count must agree on both sides. Counts that change by an odd number across a
 /// fold, by anything but two across a single fold, or at all across a passage, are flagged and kept.
 /// </summary>
@@ -108,16 +111,34 @@ internal sealed class LineSampler
             // Stay inside the neighbouring intervals: at most a quarter of each.
             var s = groups[c][0].S;
             var offset = AlongLine(groups[c][0], origin, direction, delta);
+            if (offset <= 0)
+            {
+                continue;
+            }
+
             var below = Math.Min(offset, 0.25 * (bounds[c + 1] - bounds[c]));
             var above = Math.Min(offset, 0.25 * (bounds[c + 2] - bounds[c + 1]));
-            samples.Add(Inherit(origin, direction, s - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
-            samples.Add(Inherit(origin, direction, s + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
+            if (below >= 0.5 * offset)
+            {
+                samples.Add(Inherit(origin, direction, s - below, lineIndex, SampleKind.NearBoundary, midpoints[c], flags));
+            }
+
+            if (above >= 0.5 * offset)
+            {
+                samples.Add(Inherit(origin, direction, s + above, lineIndex, SampleKind.NearBoundary, midpoints[c + 1], flags));
+            }
         }
 
         foreach (var crossing in atEnds.Where(c => c.IsBoundary))
         {
             var inner = crossing.S - sMin <= tolerance ? 0 : intervals - 1;
-            var offset = Math.Min(AlongLine(crossing, origin, direction, delta), 0.25 * (bounds[inner + 1] - bounds[inner]));
+            var along = AlongLine(crossing, origin, direction, delta);
+            var offset = Math.Min(along, 0.25 * (bounds[inner + 1] - bounds[inner]));
+            if (along <= 0 || offset < 0.5 * along)
+            {
+                continue;
+            }
+
             var s = inner == 0 ? sMin + offset : sMax - offset;
             samples.Add(Inherit(origin, direction, s, lineIndex, SampleKind.NearBoundary, midpoints[inner], flags));
         }
@@ -172,7 +193,7 @@ internal sealed class LineSampler
         }
 
         // Grazing lines would need very long offsets; beyond ten δ the point is no longer "near" along the line.
-        return delta / Math.Max(Math.Abs(cosine), 0.1);
+        return Math.Abs(cosine) < 0.05 ? 0 : delta / Math.Max(Math.Abs(cosine), 0.1);
     }
 
     /// <summary>A sample labeled by its interval's midpoint, with real solutions tracked from there.</summary>
