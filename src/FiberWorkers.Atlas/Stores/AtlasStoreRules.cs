@@ -12,7 +12,7 @@ namespace FiberWorkers.Atlas.Stores;
 public static class AtlasStoreRules
 {
     /// <summary>The outcomes a <see cref="TileAttempt"/> may record.</summary>
-    public static IReadOnlyList<string> AttemptOutcomes { get; } = ["merged", "duplicate", "failed", "timeout", "busy", "lost"];
+    public static IReadOnlyList<string> AttemptOutcomes { get; } = ["merged", "duplicate", "failed", "timeout", "busy", "lost", "returned"];
 
     /// <summary>SHA-256 (lower-case hex) of tile bytes: the tile's content hash.</summary>
     public static string HashOf(byte[] payload)

@@ -51,7 +51,8 @@ public sealed record SweepRecord(long SweepId, string AtlasId, string OptionsTex
 /// One attempt at a tile. <paramref name="Outcome"/> is one of <c>merged</c> (the result was new and kept),
 /// <c>duplicate</c> (a result for the tile was already merged), <c>failed</c> (an error or invalid answer),
 /// <c>timeout</c> (no answer before the deadline), <c>busy</c> (the worker refused it: all its tile threads were
-/// busy), or <c>lost</c> (the worker disappeared).
+/// busy), <c>lost</c> (the worker disappeared), or <c>returned</c> (the worker was stopping: it refused the tile or
+/// handed it back unfinished, and the tile went to another worker).
 /// </summary>
 public sealed record TileAttempt(
     long SweepId, string TileKey, int Attempt, string Worker, DateTimeOffset Started, double Seconds, string Outcome, string Detail);

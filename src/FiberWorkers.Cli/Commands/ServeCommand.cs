@@ -35,6 +35,11 @@ internal static class ServeCommand
         DefaultValueFactory = _ => 20.0,
     };
 
+    private static Option<string?> AdminListen() => new("--admin-listen")
+    {
+        Description = "Address (HOST:PORT) of the admin listener: plain HTTP/1.1 serving /metrics (Prometheus text format), /healthz and /readyz, no gRPC. Default: none.",
+    };
+
     private static Command CreateCoordinator(TextWriter error)
     {
         var listen = new Option<string>("--listen") { Description = "Address to listen on (HOST:PORT).", DefaultValueFactory = _ => "127.0.0.1:7400" };
@@ -46,8 +51,9 @@ internal static class ServeCommand
         var threads = new Option<int>("--threads") { Description = "Threads for the start fibers the coordinator computes.", DefaultValueFactory = _ => Environment.ProcessorCount };
         var drain = DrainTimeout();
         var format = LogFormat();
+        var admin = AdminListen();
         var command = new Command("coordinator", "Run the coordinator: owns sweeps and atlases, hands tiles to workers, routes asks.");
-        foreach (var option in new Option[] { listen, store, heartbeat, deadline, attempts, askQueue, threads, drain, format })
+        foreach (var option in new Option[] { listen, store, heartbeat, deadline, attempts, askQueue, threads, drain, format, admin })
         {
             command.Options.Add(option);
         }
@@ -66,6 +72,7 @@ internal static class ServeCommand
                 AskQueuePerWorker = Range(parse.GetValue(askQueue), 1, 1_000_000, "--ask-queue"),
                 StartFiberThreads = Range(parse.GetValue(threads), 1, 4096, "--threads"),
                 DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
+                AdminListen = Admin(parse.GetValue(admin), address),
             };
             var (requestLimits, messageBytes) = limits.Read(parse);
             options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
@@ -94,8 +101,9 @@ internal static class ServeCommand
         var id = new Option<string?>("--id") { Description = "The worker's id (default: host, process id and a random suffix)." };
         var drain = DrainTimeout();
         var format = LogFormat();
+        var admin = AdminListen();
         var command = new Command("worker", "Run a worker: computes tiles and answers resolves for the coordinator.");
-        foreach (var option in new Option[] { listen, coordinator, advertise, threads, resolveQueue, shardCache, id, drain, format })
+        foreach (var option in new Option[] { listen, coordinator, advertise, threads, resolveQueue, shardCache, id, drain, format, admin })
         {
             command.Options.Add(option);
         }
@@ -116,6 +124,7 @@ internal static class ServeCommand
                 Id = parse.GetValue(id) is { } name ? WorkerId(name) : defaults.Id,
                 Fault = Environment.GetEnvironmentVariable("FIBER_WORKER_FAULT") is { Length: > 0 } fault ? fault : null,
                 DrainTimeout = Seconds(parse.GetValue(drain), 0, 86_400, "--drain-timeout"),
+                AdminListen = Admin(parse.GetValue(admin), address),
             };
             var (requestLimits, messageBytes) = limits.Read(parse);
             options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
@@ -167,6 +176,29 @@ internal static class ServeCommand
         {
             // Ctrl+C or SIGTERM: stop gracefully.
         }
+    }
+
+    /// <summary>The admin listener, which must not share the gRPC listener's port.</summary>
+    private static ListenAddress? Admin(string? text, ListenAddress listen)
+    {
+        if (text is null)
+        {
+            return null;
+        }
+
+        ListenAddress admin;
+        try
+        {
+            admin = ListenAddress.Parse(text, "--admin-listen");
+        }
+        catch (FormatException e)
+        {
+            throw new UsageException(e.Message);
+        }
+
+        return admin.Port != 0 && admin.Port == listen.Port
+            ? throw new UsageException($"--admin-listen {admin} uses the port of --listen {listen}: give the admin listener a port of its own")
+            : admin;
     }
 
     private static ListenAddress Listen(string text)

@@ -18,6 +18,7 @@ public sealed class AskRouter
     private readonly AtlasCatalog _catalog;
     private readonly CoordinatorOptions _options;
     private readonly ILogger _log;
+    private volatile bool _stopping;
 
     public AskRouter(WorkerPool pool, AtlasCatalog catalog, CoordinatorOptions options, ILogger log)
     {
@@ -27,9 +28,17 @@ public sealed class AskRouter
         _log = log;
     }
 
+    /// <summary>Refuses new asks from now on (the coordinator is stopping); asks in flight are answered.</summary>
+    public void BeginStopping() => _stopping = true;
+
     public async Task<AskReply> AskAsync(AskRequest request, CancellationToken cancellation)
     {
         ArgumentNullException.ThrowIfNull(request);
+        if (_stopping)
+        {
+            throw StoppingRefusal.Create("coordinator", "the coordinator is stopping: ask again once it is back, or ask a worker directly");
+        }
+
         RequestChecks.Id(request.AtlasId, "atlas_id");
         RequestChecks.Id(request.RequestId, "request_id", required: false);
         RequestChecks.Version(request.Version, "version");

@@ -60,4 +60,10 @@ public sealed record CoordinatorOptions
 
     /// <summary>Limits checked on every request before any work (see <see cref="RequestLimits"/>). Default <see cref="RequestLimits.Default"/>.</summary>
     public RequestLimits Limits { get; init; } = RequestLimits.Default;
+
+    /// <summary>
+    /// The admin listener (plain HTTP/1.1: <c>/metrics</c> in Prometheus text format, <c>/healthz</c>, <c>/readyz</c>);
+    /// null (the default): none.
+    /// </summary>
+    public Hosting.ListenAddress? AdminListen { get; init; }
 }

@@ -1,3 +1,5 @@
+using System.Diagnostics;
+using System.Runtime.CompilerServices;
 using FiberWorkers.Atlas.Stores;
 using FiberWorkers.Cluster.Hosting;
 using Microsoft.AspNetCore.Builder;
@@ -8,7 +10,9 @@ namespace FiberWorkers.Cluster.Coordination;
 
 /// <summary>
 /// A running coordinator: the gRPC service, its worker pool, sweeps and router over one ledger store. On start it
-/// resumes every sweep the store holds as unfinished.
+/// resumes every sweep the store holds as unfinished. On SIGTERM (or disposal) it drains: new sweeps and asks are
+/// refused, tiles in flight are merged as they come back (for up to the drain timeout), running sweeps pause with their
+/// merged tiles in the store, and the host stops.
 /// </summary>
 public sealed class CoordinatorServer : IAsyncDisposable
 {
@@ -17,17 +21,30 @@ public sealed class CoordinatorServer : IAsyncDisposable
     private readonly SweepManager _sweeps;
     private readonly CancellationTokenSource _stop = new();
     private readonly Task _monitor;
+    private readonly Action _beginStopping;
+    private readonly StrongBox<long> _stoppingSince;
+    private readonly TimeSpan _drainTimeout;
+    private readonly ClusterMetrics _metrics;
+    private readonly ILogger _log;
 
-    private CoordinatorServer(GrpcHost host, WorkerPool pool, SweepManager sweeps, CoordinatorOptions options)
+    private CoordinatorServer(GrpcHost host, WorkerPool pool, SweepManager sweeps, CoordinatorOptions options, Action beginStopping, StrongBox<long> stoppingSince, ClusterMetrics metrics, ILogger log)
     {
         _host = host;
         _pool = pool;
         _sweeps = sweeps;
+        _beginStopping = beginStopping;
+        _stoppingSince = stoppingSince;
+        _drainTimeout = options.DrainTimeout;
+        _metrics = metrics;
+        _log = log;
         _monitor = MonitorAsync(options.Heartbeat, _stop.Token);
     }
 
     /// <summary>The bound address.</summary>
     public Uri Address => _host.Address;
+
+    /// <summary>The admin listener's address (metrics), or null without one.</summary>
+    public Uri? AdminAddress => _host.AdminAddress;
 
     public WorkerPool Workers => _pool;
 
@@ -45,11 +62,33 @@ public sealed class CoordinatorServer : IAsyncDisposable
         ArgumentNullException.ThrowIfNull(log);
         var pool = new WorkerPool(options, log);
         var catalog = new AtlasCatalog(ledger) { FamilyLimits = options.Limits.Family };
-        var dispatcher = new TileDispatcher(pool, ledger, options, log);
+        var metrics = new ClusterMetrics();
+        var dispatcher = new TileDispatcher(pool, ledger, options, log, metrics);
         var sweeps = new SweepManager(ledger, dispatcher, pool, catalog, options, log);
         var router = new AskRouter(pool, catalog, options, log);
+        metrics.ObserveCoordinator(
+            () => pool.Live().Count,
+            () => pool.All().Select(w => (w.Id, w.AsksInFlight, w.TilesInFlight)),
+            sweeps.Pending);
+        var stoppingSince = new StrongBox<long>(0);
+        void BeginStopping()
+        {
+            if (Interlocked.CompareExchange(ref stoppingSince.Value, Stopwatch.GetTimestamp(), 0) != 0)
+            {
+                return;
+            }
+
+            // Workers may no longer reach a stopping host with their heartbeats: none is declared lost meanwhile, so
+            // no tile in flight is cancelled for want of a heartbeat.
+            pool.HoldLosses = true;
+            router.BeginStopping();
+            sweeps.BeginDraining();
+            log.Information("coordinator stopping: no new sweeps or asks; {Sweeps} running sweeps merge their tiles in flight (for up to {Seconds:F1} s) and pause",
+                sweeps.Running, options.DrainTimeout.TotalSeconds);
+        }
+
         var host = await GrpcHost.StartAsync(
-            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, DrainTimeout = options.DrainTimeout, Security = options.Security },
+            new HostSettings { Listen = listen, Logger = log, MaxMessageBytes = options.MaxMessageBytes, DrainTimeout = options.DrainTimeout, Security = options.Security, AdminListen = options.AdminListen, Stopping = BeginStopping },
             services =>
             {
                 services.AddSingleton(options);
@@ -63,11 +102,19 @@ public sealed class CoordinatorServer : IAsyncDisposable
             cancellation).ConfigureAwait(false);
         log.Information("coordinator listening on {Address}", host.Address.ToString().TrimEnd('/'));
         sweeps.ResumeUnfinished();
-        return new CoordinatorServer(host, pool, sweeps, options);
+        return new CoordinatorServer(host, pool, sweeps, options, BeginStopping, stoppingSince, metrics, log);
     }
+
+    /// <summary>Stops as on SIGTERM (see the class summary); completes when the host stopped.</summary>
+    public Task StopAsync() => _host.StopAsync();
 
     public async ValueTask DisposeAsync()
     {
+        // Whatever the host's own drain covered (calls coming in), the tiles this coordinator handed out are calls going
+        // out: wait for them, within what is left of the drain timeout, before anything is cancelled.
+        _beginStopping();
+        var left = _drainTimeout - Stopwatch.GetElapsedTime(Volatile.Read(ref _stoppingSince.Value));
+        var drained = await _sweeps.DrainAsync(left > TimeSpan.Zero ? left : TimeSpan.Zero).ConfigureAwait(false);
         await _stop.CancelAsync().ConfigureAwait(false);
         try
         {
@@ -81,7 +128,9 @@ public sealed class CoordinatorServer : IAsyncDisposable
         _sweeps.Dispose();
         await _host.DisposeAsync().ConfigureAwait(false);
         _pool.Dispose();
+        _metrics.Dispose();
         _stop.Dispose();
+        _log.Information("coordinator stopped ({Drain})", drained ? "every tile in flight came back" : "the drain ran out");
     }
 
     private async Task MonitorAsync(TimeSpan interval, CancellationToken cancellation)

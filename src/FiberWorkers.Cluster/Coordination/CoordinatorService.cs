@@ -77,6 +77,13 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
         return Task.FromResult(new HeartbeatReply { Known = _pool.Heartbeat(request.WorkerId) });
     }
 
+    public override Task<DeregisterWorkerReply> DeregisterWorker(DeregisterWorkerRequest request, ServerCallContext context)
+    {
+        RequestChecks.Id(request.WorkerId, "worker_id");
+        RequestChecks.Id(request.Reason, "reason", required: false);
+        return Task.FromResult(new DeregisterWorkerReply { Known = _pool.Deregister(request.WorkerId, request.Final) });
+    }
+
     public override Task<SweepSetup> FetchSweepSetup(SweepSetupRequest request, ServerCallContext context)
     {
         RequestChecks.FetchSweepSetup(request, _options.Limits);

@@ -58,6 +58,11 @@ public sealed class SweepManager : IDisposable
     public SubmitSweepReply Submit(SubmitSweepRequest request, string? caller = null)
     {
         ArgumentNullException.ThrowIfNull(request);
+        if (_dispatcher.IsDraining)
+        {
+            throw StoppingRefusal.Create("coordinator", "the coordinator is stopping: submit the sweep again once it is back (it resumes from the merged tiles)");
+        }
+
         var (family, options) = Parse(request);
         long sweepId;
         string atlasId;
@@ -127,6 +132,12 @@ public sealed class SweepManager : IDisposable
             {
                 update.Workers.Clear();
                 update.Workers.Add(_pool.Live().Select(w => w.ToMessage()));
+                if (update.Failed && _dispatcher.IsDraining)
+                {
+                    // Not the sweep's failure: the watcher should come back (resubmit) once the coordinator is back.
+                    throw StoppingRefusal.Create("coordinator", $"the coordinator is stopping: sweep {sweepId} keeps its {update.TilesDone} merged tiles and resumes when it restarts");
+                }
+
                 await stream.WriteAsync(update, cancellation).ConfigureAwait(false);
                 if (update.Finished || update.Failed)
                 {
@@ -137,6 +148,41 @@ public sealed class SweepManager : IDisposable
         finally
         {
             run.Unsubscribe(reader);
+        }
+    }
+
+    /// <summary>
+    /// The coordinator stops: new submissions are refused (Unavailable, "the coordinator is stopping"), no tile gets a
+    /// new attempt, and tiles in flight are merged when they come back; each running sweep then ends, keeping every
+    /// merged tile for the restart.
+    /// </summary>
+    public void BeginDraining() => _dispatcher.BeginDraining();
+
+    /// <summary>Waits until every running sweep ended after <see cref="BeginDraining"/>, or <paramref name="timeout"/> passed; true when they all ended.</summary>
+    public async Task<bool> DrainAsync(TimeSpan timeout)
+    {
+        Task[] running;
+        lock (_gate)
+        {
+            running = [.. _runs.Values.Where(r => !r.Done).Select(r => r.Task).OfType<Task>()];
+        }
+
+        var all = Task.WhenAll(running);
+        var ended = await Task.WhenAny(all, Task.Delay(timeout)).ConfigureAwait(false) == all;
+        if (!ended)
+        {
+            _log.Warning("{Count} sweeps still had tiles in flight when the drain ran out; those tiles run again after the restart", running.Count(t => !t.IsCompleted));
+        }
+
+        return ended;
+    }
+
+    /// <summary>Tiles planned but not yet merged, per sweep running here (for the metrics).</summary>
+    public IReadOnlyList<(long Sweep, long Pending)> Pending()
+    {
+        lock (_gate)
+        {
+            return [.. _runs.Values.Where(r => !r.Done).Select(r => (r.SweepId, (long)Math.Max(0, r.Latest.TilesPlanned - r.Latest.TilesDone)))];
         }
     }
 
@@ -223,8 +269,10 @@ public sealed class SweepManager : IDisposable
                 run.SweepId, summary.AtlasVersion, run.AtlasId, summary.Tiles, summary.Samples, summary.ContentHash);
             run.Finish(Final(run.SweepId, run.AtlasId, Conversions.ToOutcome(summary, run.SweepId)));
         }
-        catch (OperationCanceledException) when (_stopping.IsCancellationRequested)
+        catch (OperationCanceledException) when (_stopping.IsCancellationRequested || _dispatcher.IsDraining)
         {
+            _log.Information("sweep {SweepId} of atlas {AtlasId} paused: the coordinator is stopping; {Done} tiles merged, the rest run after the restart",
+                run.SweepId, run.AtlasId, run.Latest.TilesDone);
             run.Finish(Failed(run, "the coordinator is stopping; the sweep resumes when it restarts"));
         }
         catch (Exception e)

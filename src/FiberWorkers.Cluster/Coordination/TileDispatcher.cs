@@ -4,6 +4,7 @@ using FiberWorkers.Atlas.Stores;
 using FiberWorkers.Atlas.Sweeps;
 using FiberWorkers.Atlas.Tiles;
 using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Cluster.Hosting;
 using FiberWorkers.Contracts.V1;
 using Grpc.Core;
 using Polly;
@@ -17,7 +18,9 @@ namespace FiberWorkers.Cluster.Coordination;
 /// <summary>
 /// Hands tiles to workers: each tile waits for a free slot on a live worker, runs under that worker's circuit breaker
 /// and deadline, is checked, and on any failure (error, garbage, timeout, lost worker) is retried with backoff on
-/// another worker (Polly retry). Every attempt is recorded in the ledger and logged.
+/// another worker (Polly retry). Every attempt is recorded in the ledger and logged. A tile a stopping worker refuses
+/// or hands back (<see cref="StoppingRefusal"/>) is recorded as <c>returned</c> and goes to another worker at once,
+/// counting neither against that worker's circuit nor against the tile's attempt budget.
 /// </summary>
 public sealed class TileDispatcher
 {
@@ -26,8 +29,11 @@ public sealed class TileDispatcher
     private readonly ILogger _log;
     private readonly ResiliencePipeline _retry;
     private readonly ConcurrentDictionary<(long Sweep, string Tile), Accepted> _accepted = new();
+    private readonly CancellationTokenSource _draining = new();
+    private readonly int _maxFailures;
+    private readonly ClusterMetrics? _metrics;
 
-    public TileDispatcher(WorkerPool pool, ISweepLedger ledger, CoordinatorOptions options, ILogger log)
+    public TileDispatcher(WorkerPool pool, ISweepLedger ledger, CoordinatorOptions options, ILogger log, ClusterMetrics? metrics = null)
     {
         ArgumentNullException.ThrowIfNull(pool);
         ArgumentNullException.ThrowIfNull(ledger);
@@ -36,24 +42,47 @@ public sealed class TileDispatcher
         _pool = pool;
         _ledger = ledger;
         _log = log;
+        _metrics = metrics;
+        _maxFailures = Math.Max(1, options.MaxTileAttempts);
+
+        // The attempt budget is counted per tile in ComputeAsync (returned tiles do not count), so the strategy itself
+        // retries until an attempt says it was the last.
         _retry = new ResiliencePipelineBuilder()
             .AddRetry(new RetryStrategyOptions
             {
-                MaxRetryAttempts = Math.Max(0, options.MaxTileAttempts - 1),
+                MaxRetryAttempts = int.MaxValue,
                 BackoffType = DelayBackoffType.Exponential,
                 UseJitter = true,
                 Delay = options.RetryDelay,
                 MaxDelay = options.RetryMaxDelay,
-                ShouldHandle = new PredicateBuilder().Handle<AttemptFailedException>(),
+                ShouldHandle = new PredicateBuilder().Handle<AttemptFailedException>(e => !e.Last),
+                DelayGenerator = args => ValueTask.FromResult(args.Outcome.Exception is AttemptFailedException { Returned: true } ? TimeSpan.Zero : (TimeSpan?)null),
             })
             .Build();
     }
 
+    /// <summary>True once <see cref="BeginDraining"/> was called.</summary>
+    public bool IsDraining => _draining.IsCancellationRequested;
+
+    /// <summary>
+    /// The coordinator stops: no tile gets a new attempt from now on (those waiting for a worker end with an
+    /// <see cref="OperationCanceledException"/>), while attempts in flight run on and their results are merged.
+    /// </summary>
+    public void BeginDraining() => _draining.Cancel();
+
     /// <summary>Tiles answered and checked, not yet merged (their attempt is recorded at the merge).</summary>
     private sealed record Accepted(int Attempt, string Worker, DateTimeOffset Started, double Seconds);
 
-    /// <summary>A failed attempt, already recorded; the retry strategy handles only these.</summary>
-    private sealed class AttemptFailedException(string message, Exception inner) : Exception(message, inner);
+    /// <summary>
+    /// A failed attempt, already recorded; the retry strategy handles only these, and not the <paramref name="last"/>
+    /// one. <paramref name="returned"/>: a stopping worker gave the tile back (not a failure of the tile).
+    /// </summary>
+    private sealed class AttemptFailedException(string message, Exception inner, bool returned, bool last) : Exception(message, inner)
+    {
+        public bool Returned { get; } = returned;
+
+        public bool Last { get; } = last;
+    }
 
     /// <summary>The <see cref="RemoteTileSource"/> of a cluster sweep.</summary>
     public async Task<(TileResult Result, long PathsTracked)> ComputeAsync(SweepContext context, long sweepId, TileKey key, CancellationToken cancellation)
@@ -63,13 +92,25 @@ public sealed class TileDispatcher
         var tile = key.ToString();
         var failedOn = new HashSet<string>(StringComparer.Ordinal);
         var attempt = 0;
+        var failures = 0;
+        var returns = 0;
         try
         {
             return await _retry.ExecuteAsync(
                 async token =>
                 {
+                    if (_draining.IsCancellationRequested)
+                    {
+                        throw new OperationCanceledException($"tile {tile}: the coordinator is stopping", _draining.Token);
+                    }
+
                     attempt++;
-                    var link = await _pool.AcquireAsync(failedOn, token).ConfigureAwait(false);
+                    WorkerLink link;
+                    using (var waiting = CancellationTokenSource.CreateLinkedTokenSource(token, _draining.Token))
+                    {
+                        link = await _pool.AcquireAsync(failedOn, waiting.Token).ConfigureAwait(false);
+                    }
+
                     var started = DateTimeOffset.UtcNow;
                     var clock = Stopwatch.StartNew();
                     var succeeded = false;
@@ -98,6 +139,7 @@ public sealed class TileDispatcher
                             linked.Token).ConfigureAwait(false);
                         succeeded = true;
                         _accepted[(sweepId, tile)] = new Accepted(attempt, link.Id, started, clock.Elapsed.TotalSeconds);
+                        _metrics?.TilePaths(outcome.PathsTracked);
                         _log.Information(
                             "tile {TileKey} of sweep {SweepId}: attempt {Attempt} on worker {WorkerId} completed in {Seconds:F3} s ({Samples} samples, {Paths} paths)",
                             tile, sweepId, attempt, link.Id, clock.Elapsed.TotalSeconds, outcome.Result.Samples.Count, outcome.PathsTracked);
@@ -105,15 +147,31 @@ public sealed class TileDispatcher
                     }
                     catch (Exception e) when (!token.IsCancellationRequested)
                     {
-                        var kind = link.IsLost ? "lost" : e is TimeoutRejectedException ? "timeout"
+                        var returned = e is RpcException rpc && StoppingRefusal.Is(rpc) && !link.IsLost;
+                        var kind = returned ? "returned" : link.IsLost ? "lost" : e is TimeoutRejectedException ? "timeout"
                             : e is RpcException { StatusCode: StatusCode.ResourceExhausted } ? "busy" : "failed";
                         var detail = Describe(e, link);
                         failedOn.Add(link.Id);
                         _ledger.RecordAttempt(new TileAttempt(sweepId, tile, attempt, link.Id, started, clock.Elapsed.TotalSeconds, kind, detail));
-                        _log.Warning(
-                            "tile {TileKey} of sweep {SweepId}: attempt {Attempt} on worker {WorkerId} {Outcome} after {Seconds:F3} s: {Detail}",
-                            tile, sweepId, attempt, link.Id, kind, clock.Elapsed.TotalSeconds, detail);
-                        throw new AttemptFailedException($"attempt {attempt} at tile {tile} on worker {link.Id} {kind}: {detail}", e);
+                        _metrics?.TileAttempt(kind);
+
+                        // Hand-backs are bounded too (every worker stopping at once must not loop for ever), but far above
+                        // anything a rolling restart produces.
+                        var last = returned ? ++returns >= 16 * _maxFailures : ++failures >= _maxFailures;
+                        if (returned)
+                        {
+                            _log.Information(
+                                "tile {TileKey} of sweep {SweepId}: attempt {Attempt} returned by worker {WorkerId} after {Seconds:F3} s ({Detail}); it goes to another worker",
+                                tile, sweepId, attempt, link.Id, clock.Elapsed.TotalSeconds, detail);
+                        }
+                        else
+                        {
+                            _log.Warning(
+                                "tile {TileKey} of sweep {SweepId}: attempt {Attempt} on worker {WorkerId} {Outcome} after {Seconds:F3} s: {Detail}",
+                                tile, sweepId, attempt, link.Id, kind, clock.Elapsed.TotalSeconds, detail);
+                        }
+
+                        throw new AttemptFailedException($"attempt {attempt} at tile {tile} on worker {link.Id} {kind}: {detail}", e, returned, last);
                     }
                     finally
                     {
@@ -124,7 +182,7 @@ public sealed class TileDispatcher
         }
         catch (AttemptFailedException e)
         {
-            throw new InvalidOperationException($"tile {tile} failed {attempt} attempts; the last: {e.Message}", e);
+            throw new InvalidOperationException($"tile {tile} failed {failures} attempts ({attempt} in all, {returns} returned by stopping workers); the last: {e.Message}", e);
         }
     }
 
@@ -137,6 +195,8 @@ public sealed class TileDispatcher
         {
             _ledger.RecordAttempt(new TileAttempt(merge.SweepId, merge.TileKey, accepted.Attempt, accepted.Worker, accepted.Started, accepted.Seconds, outcome, merge.TileHash));
         }
+
+        _metrics?.TileAttempt(outcome);
 
         _log.Information("tile {TileKey} of sweep {SweepId} {MergeOutcome} as {TileHash}", merge.TileKey, merge.SweepId, outcome, merge.TileHash);
     }

@@ -1,3 +1,4 @@
+using FiberWorkers.Cluster.Contracts;
 using FiberWorkers.Contracts.V1;
 using Grpc.Core;
 using Grpc.Net.Client;
@@ -24,6 +25,7 @@ public sealed class WorkerLink : IDisposable
     private long _tilesDone;
     private long _tilesFailed;
     private long _openUntilTicks;
+    private volatile bool _draining;
 
     internal WorkerLink(string id, Uri address, int threads, CoordinatorOptions options, Func<Uri, GrpcChannel> connect, ILogger log)
     {
@@ -52,9 +54,10 @@ public sealed class WorkerLink : IDisposable
                     log.Information("circuit of worker {WorkerId} closed: it answers again", id);
                     return ValueTask.CompletedTask;
                 },
-                // A busy worker (ResourceExhausted) is not a failing one; cancellations are the caller's.
+                // A busy worker (ResourceExhausted) is not a failing one, nor is one handing tiles back because it
+                // stops; cancellations are the caller's.
                 ShouldHandle = new PredicateBuilder()
-                    .Handle<RpcException>(e => e.StatusCode is not (StatusCode.Cancelled or StatusCode.ResourceExhausted))
+                    .Handle<RpcException>(e => e.StatusCode is not (StatusCode.Cancelled or StatusCode.ResourceExhausted) && !StoppingRefusal.Is(e))
                     .Handle<TimeoutRejectedException>()
                     .Handle<InvalidTileException>(),
             })
@@ -82,6 +85,9 @@ public sealed class WorkerLink : IDisposable
 
     public bool IsLost => _gone.IsCancellationRequested;
 
+    /// <summary>True once the worker said it stops: it gets no new tiles or asks; calls in flight run on.</summary>
+    public bool IsDraining => _draining;
+
     public CircuitState Circuit => _circuit.CircuitState;
 
     /// <summary>
@@ -92,7 +98,7 @@ public sealed class WorkerLink : IDisposable
     {
         get
         {
-            if (IsLost || Volatile.Read(ref _tilesInFlight) >= Threads)
+            if (IsLost || _draining || Volatile.Read(ref _tilesInFlight) >= Threads)
             {
                 return false;
             }
@@ -115,14 +121,14 @@ public sealed class WorkerLink : IDisposable
 
     public long TilesFailed => Interlocked.Read(ref _tilesFailed);
 
-    public string State => IsLost ? "lost" : Circuit is CircuitState.Open or CircuitState.Isolated or CircuitState.HalfOpen ? "open-circuit" : "live";
+    public string State => IsLost ? "lost" : _draining ? "draining" : Circuit is CircuitState.Open or CircuitState.Isolated or CircuitState.HalfOpen ? "open-circuit" : "live";
 
     internal bool TryTakeSlot()
     {
         while (true)
         {
             var current = Volatile.Read(ref _tilesInFlight);
-            if (current >= Threads || IsLost)
+            if (current >= Threads || IsLost || _draining)
             {
                 return false;
             }
@@ -155,6 +161,8 @@ public sealed class WorkerLink : IDisposable
     internal void ExitAsk() => Interlocked.Decrement(ref _asksInFlight);
 
     internal void MarkLost() => _gone.Cancel();
+
+    internal void MarkDraining() => _draining = true;
 
     public WorkerState ToMessage() => new()
     {
@@ -241,6 +249,11 @@ public sealed class WorkerPool : IDisposable
     /// <summary>Declares workers silent for too long lost: their calls in flight are cancelled and their tiles retried.</summary>
     public void SweepLost()
     {
+        if (HoldLosses)
+        {
+            return;
+        }
+
         var limit = _options.Heartbeat * _options.MissedHeartbeats;
         var now = DateTimeOffset.UtcNow;
         List<WorkerLink> lost;
@@ -267,31 +280,80 @@ public sealed class WorkerPool : IDisposable
         }
     }
 
-    /// <summary>Removes a worker at once (it reported that it is stopping).</summary>
-    public void Remove(string id)
+    /// <summary>
+    /// A worker reported that it stops: while it drains (<paramref name="final"/> false) it keeps its calls in flight
+    /// but gets no new tiles or asks and is no longer listed as live; once it is gone (<paramref name="final"/> true)
+    /// it is removed. False when the worker was unknown.
+    /// </summary>
+    public bool Deregister(string id, bool final)
+    {
+        WorkerLink? link;
+        lock (_gate)
+        {
+            _workers.TryGetValue(id, out link);
+        }
+
+        if (link is null)
+        {
+            return false;
+        }
+
+        if (final)
+        {
+            if (Remove(id))
+            {
+                _log.Information("worker {WorkerId} at {WorkerAddress} stopped and deregistered", id, link.Address);
+            }
+        }
+        else
+        {
+            link.MarkDraining();
+            _log.Information("worker {WorkerId} at {WorkerAddress} is stopping: no new tiles or asks; its {TilesInFlight} tiles in flight finish or come back",
+                id, link.Address, link.TilesInFlight);
+            Pulse();
+        }
+
+        return true;
+    }
+
+    /// <summary>Removes a worker at once (it reported that it stopped); false when it was not registered.</summary>
+    public bool Remove(string id)
     {
         WorkerLink? link;
         lock (_gate)
         {
             if (!_workers.Remove(id, out link))
             {
-                return;
+                return false;
             }
         }
 
         link.MarkLost();
         link.Dispose();
         Pulse();
+        return true;
     }
 
-    /// <summary>Live workers in id order.</summary>
+    /// <summary>Live workers in id order (not lost, not draining).</summary>
     public IReadOnlyList<WorkerLink> Live()
     {
         lock (_gate)
         {
-            return [.. _workers.Values.Where(w => !w.IsLost).OrderBy(w => w.Id, StringComparer.Ordinal)];
+            return [.. _workers.Values.Where(w => !w.IsLost && !w.IsDraining).OrderBy(w => w.Id, StringComparer.Ordinal)];
         }
     }
+
+    /// <summary>Every registered worker, draining ones included, in id order.</summary>
+    public IReadOnlyList<WorkerLink> All()
+    {
+        lock (_gate)
+        {
+            return [.. _workers.Values.OrderBy(w => w.Id, StringComparer.Ordinal)];
+        }
+    }
+
+    /// <summary>Stops declaring silent workers lost (the coordinator is stopping and may no longer hear heartbeats).</summary>
+    public bool HoldLosses { get; set; }
 
     /// <summary>
     /// Waits for a worker with a free slot and takes the slot: the one with the most free slots, preferring workers

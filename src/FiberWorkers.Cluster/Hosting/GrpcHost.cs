@@ -33,6 +33,12 @@ public sealed record HostSettings
 
     /// <summary>TLS of the gRPC listener and the tokens its calls need (default: plaintext without tokens, loopback only).</summary>
     public ServerSecurity Security { get; init; } = ServerSecurity.None;
+
+    /// <summary>
+    /// Where the admin listener binds (plain HTTP/1.1: <c>/metrics</c> in Prometheus text format, <c>/healthz</c>,
+    /// <c>/readyz</c>; no gRPC); null (the default): no admin listener.
+    /// </summary>
+    public ListenAddress? AdminListen { get; init; }
 }
 
 /// <summary>
@@ -43,14 +49,18 @@ public sealed class GrpcHost : IAsyncDisposable
 {
     private readonly WebApplication _app;
 
-    private GrpcHost(WebApplication app, Uri address)
+    private GrpcHost(WebApplication app, Uri address, Uri? adminAddress)
     {
         _app = app;
         Address = address;
+        AdminAddress = adminAddress;
     }
 
     /// <summary>The bound address, e.g. http://127.0.0.1:41234 (port 0 resolved).</summary>
     public Uri Address { get; }
+
+    /// <summary>The admin listener's bound address (http://HOST:PORT), or null without one.</summary>
+    public Uri? AdminAddress { get; }
 
     /// <summary>The host's services (the service objects registered by the caller).</summary>
     public IServiceProvider Services => _app.Services;
@@ -71,6 +81,7 @@ public sealed class GrpcHost : IAsyncDisposable
 
         var builder = WebApplication.CreateSlimBuilder(new WebApplicationOptions { Args = [], ApplicationName = "fiber" });
         builder.Services.AddSerilog(settings.Logger, dispose: false);
+        ListenOptions? admin = null;
         builder.WebHost.ConfigureKestrel(kestrel =>
         {
             kestrel.AddServerHeader = false;
@@ -82,6 +93,16 @@ public sealed class GrpcHost : IAsyncDisposable
                 settings.Security.Tls?.Configure(endpoint);
             });
         });
+        if (settings.AdminListen is { } adminListen)
+        {
+            builder.WebHost.ConfigureKestrel(kestrel => kestrel.Listen(adminListen.Address, adminListen.Port, endpoint =>
+            {
+                endpoint.Protocols = HttpProtocols.Http1;
+                admin = endpoint;
+            }));
+            AdminEndpoint.AddServices(builder.Services);
+        }
+
         builder.Services.Configure<HostOptions>(o => o.ShutdownTimeout = settings.DrainTimeout);
         builder.Services.AddGrpc(o =>
         {
@@ -107,6 +128,11 @@ public sealed class GrpcHost : IAsyncDisposable
         var app = builder.Build();
         app.Use(MessageSizeLimit.Create(settings.MaxMessageBytes));
         map(app);
+        if (settings.AdminListen is not null)
+        {
+            AdminEndpoint.Map(app, () => admin?.IPEndPoint?.Port ?? -1, ready);
+        }
+
         if (settings.Stopping is { } stopping)
         {
             app.Lifetime.ApplicationStopping.Register(stopping);
@@ -122,7 +148,8 @@ public sealed class GrpcHost : IAsyncDisposable
 
         settings.Logger.Information("security: {Security}", settings.Security.Describe());
         var bound = app.Services.GetRequiredService<IServer>().Features.Get<IServerAddressesFeature>()!.Addresses.First();
-        return new GrpcHost(app, new Uri(bound.Replace("[::]", "[::1]", StringComparison.Ordinal).Replace("0.0.0.0", "127.0.0.1", StringComparison.Ordinal)));
+        var adminAddress = admin?.IPEndPoint is { } adminBound ? new Uri($"http://{new ListenAddress(adminBound.Address, adminBound.Port)}") : null;
+        return new GrpcHost(app, new Uri(bound.Replace("[::]", "[::1]", StringComparison.Ordinal).Replace("0.0.0.0", "127.0.0.1", StringComparison.Ordinal)), adminAddress);
     }
 
     /// <summary>Stops accepting calls and lets running ones finish (up to the shutdown timeout).</summary>

@@ -36,6 +36,13 @@ public sealed class WorkerAgent
         var warned = false;
         while (!cancellation.IsCancellationRequested)
         {
+            // A stopping worker keeps heartbeating (its tiles in flight must not be declared lost) but never
+            // registers again: the coordinator has forgotten it on purpose, or will.
+            if (_runtime.IsStopping)
+            {
+                return;
+            }
+
             try
             {
                 var reply = await _coordinator.RegisterWorkerAsync(
@@ -62,7 +69,7 @@ public sealed class WorkerAgent
                     }
                 }
             }
-            catch (RpcException e) when (!cancellation.IsCancellationRequested)
+            catch (RpcException e) when (!cancellation.IsCancellationRequested && !_runtime.IsStopping)
             {
                 _registered = false;
                 if (!warned)
@@ -74,6 +81,31 @@ public sealed class WorkerAgent
                 await Task.Delay(backoff, cancellation).ConfigureAwait(false);
                 backoff = TimeSpan.FromTicks(Math.Min(backoff.Ticks * 2, TimeSpan.FromSeconds(2).Ticks));
             }
+        }
+    }
+
+    /// <summary>
+    /// Tells the coordinator that this worker stops: first (<paramref name="final"/> false) that it drains, so no new
+    /// tiles or asks are routed to it; then that it is gone. Best effort within two seconds: an unreachable
+    /// coordinator finds out from the missing heartbeats instead.
+    /// </summary>
+    public async Task DeregisterAsync(bool final, CancellationToken cancellation = default)
+    {
+        try
+        {
+            var reply = await _coordinator.DeregisterWorkerAsync(
+                new DeregisterWorkerRequest { WorkerId = _runtime.Id, Final = final, Reason = "stopping" },
+                deadline: DateTime.UtcNow.AddSeconds(2),
+                cancellationToken: cancellation).ConfigureAwait(false);
+            _log.Information("worker {WorkerId} deregistered from the coordinator ({Step}; known: {Known})", _runtime.Id, final ? "gone" : "draining", reply.Known);
+        }
+        catch (RpcException e)
+        {
+            _log.Warning("worker {WorkerId} could not deregister ({Step}): {Status}: {Detail}", _runtime.Id, final ? "gone" : "draining", e.StatusCode, e.Status.Detail);
+        }
+        catch (OperationCanceledException)
+        {
+            _log.Warning("worker {WorkerId} could not deregister ({Step}): the drain ran out", _runtime.Id, final ? "gone" : "draining");
         }
     }
 }

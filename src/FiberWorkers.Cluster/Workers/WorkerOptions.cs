@@ -52,4 +52,10 @@ public sealed record WorkerOptions
     /// answers tiles with a wrong result, "hang" never answers them, "slow:MS" waits MS milliseconds before each tile.
     /// </summary>
     public string? Fault { get; init; }
+
+    /// <summary>
+    /// The admin listener (plain HTTP/1.1: <c>/metrics</c> in Prometheus text format, <c>/healthz</c>, <c>/readyz</c>);
+    /// null (the default): none.
+    /// </summary>
+    public Hosting.ListenAddress? AdminListen { get; init; }
 }

@@ -7,6 +7,7 @@ using FiberWorkers.Atlas.Stores;
 using FiberWorkers.Atlas.Sweeps;
 using FiberWorkers.Atlas.Tiles;
 using FiberWorkers.Cluster.Contracts;
+using FiberWorkers.Cluster.Hosting;
 using FiberWorkers.Contracts.V1;
 using FiberWorkers.Solving.Fibers;
 using FiberWorkers.Solving.StartFibers;
@@ -32,11 +33,13 @@ public sealed class WorkerRuntime
     private readonly BoundedCache<string, SweepContext> _setups;
     private readonly BoundedCache<(string Atlas, int Version, string Tile, bool Verify), Resolver> _shards;
     private readonly ConcurrentDictionary<string, FamilyDefinition> _families = new(StringComparer.Ordinal);
+    private readonly CancellationTokenSource _handBack = new();
+    private readonly ClusterMetrics? _metrics;
     private int _tilesRunning;
     private int _resolvesWaiting;
-    private volatile bool _stopping;
+    private int _stopping;
 
-    public WorkerRuntime(WorkerOptions options, Coordinator.CoordinatorClient coordinator, ILogger log)
+    public WorkerRuntime(WorkerOptions options, Coordinator.CoordinatorClient coordinator, ILogger log, ClusterMetrics? metrics = null)
     {
         ArgumentNullException.ThrowIfNull(options);
         ArgumentNullException.ThrowIfNull(coordinator);
@@ -44,6 +47,7 @@ public sealed class WorkerRuntime
         _options = options;
         _coordinator = coordinator;
         _log = log;
+        _metrics = metrics;
         _tileSlots = new SemaphoreSlim(options.Threads, options.Threads);
         _resolveSlots = new SemaphoreSlim(options.Threads, options.Threads);
         _setups = new BoundedCache<string, SweepContext>(options.SetupCache);
@@ -57,18 +61,36 @@ public sealed class WorkerRuntime
     public int ResolvesWaiting => Volatile.Read(ref _resolvesWaiting);
 
     /// <summary>True once the worker began to stop.</summary>
-    public bool IsStopping => _stopping;
+    public bool IsStopping => Volatile.Read(ref _stopping) != 0;
 
-    /// <summary>Refuses new tiles from now on (Unavailable, so the coordinator gives them to another worker).</summary>
-    public void BeginStopping() => _stopping = true;
+    /// <summary>
+    /// How long after the stop signal tiles still running are handed back unfinished: the drain timeout less a margin
+    /// (a quarter of it, at most 5 s) for the tile to notice between two lines and for the refusal to reach the
+    /// coordinator before the host closes its connections.
+    /// </summary>
+    public TimeSpan HandBackAfter => _options.DrainTimeout - TimeSpan.FromTicks(Math.Min(_options.DrainTimeout.Ticks / 4, TimeSpan.FromSeconds(5).Ticks));
+
+    /// <summary>
+    /// Refuses new tiles from now on (Unavailable with the stopping trailer, so the coordinator gives them to another
+    /// worker without holding it against this one), and arms the hand-back: tiles still running after
+    /// <see cref="HandBackAfter"/> are cancelled and answered the same way. Only the first call counts.
+    /// </summary>
+    public void BeginStopping()
+    {
+        if (Interlocked.Exchange(ref _stopping, 1) == 0)
+        {
+            _handBack.CancelAfter(HandBackAfter);
+        }
+    }
 
     public async Task<TileOutcome> RunTileAsync(TileTask task, CancellationToken cancellation)
     {
         ArgumentNullException.ThrowIfNull(task);
         var key = RequestChecks.RunTile(task, _options.Limits);
-        if (_stopping)
+        if (IsStopping)
         {
-            throw new RpcException(new Status(StatusCode.Unavailable, $"worker {Id} is stopping"));
+            _metrics?.WorkerTile("returned");
+            throw StoppingRefusal.Create("worker", $"worker {Id} is stopping: tile {key} not started; give it to another worker");
         }
 
         if (!await _tileSlots.WaitAsync(0, cancellation).ConfigureAwait(false))
@@ -77,6 +99,8 @@ public sealed class WorkerRuntime
         }
 
         Interlocked.Increment(ref _tilesRunning);
+        var clock = Stopwatch.StartNew();
+        using var work = CancellationTokenSource.CreateLinkedTokenSource(cancellation, _handBack.Token);
         try
         {
             var context = await _setups.GetAsync(SetupKey(task), _ => LoadSetupAsync(task, cancellation)).ConfigureAwait(false);
@@ -88,10 +112,10 @@ public sealed class WorkerRuntime
                 throw RequestChecks.Invalid("tile_key", $"{key} lies outside the {string.Join('x', context.Options.Divisions)} grid");
             }
 
-            await MisbehaveAsync(cancellation).ConfigureAwait(false);
-            var clock = Stopwatch.StartNew();
+            await MisbehaveAsync(work.Token).ConfigureAwait(false);
+            clock.Restart();
             var (result, paths) = await Task.Factory.StartNew(
-                () => TileComputer.Compute(context, key, cancellation), cancellation, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
+                () => TileComputer.Compute(context, key, work.Token), work.Token, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
             if (_options.Fault == "garbage")
             {
                 result = result.Clone();
@@ -99,7 +123,17 @@ public sealed class WorkerRuntime
             }
 
             _log.Information("tile {TileKey} of sweep {SweepId} (attempt {Attempt}) computed in {Seconds:F3} s", task.TileKey, task.SweepId, task.Attempt, clock.Elapsed.TotalSeconds);
+            _metrics?.WorkerTile("computed");
             return new TileOutcome { Result = result, PathsTracked = paths, Seconds = clock.Elapsed.TotalSeconds, WorkerId = Id };
+        }
+        catch (OperationCanceledException) when (_handBack.IsCancellationRequested && !cancellation.IsCancellationRequested)
+        {
+            // The drain is running out: answer now, while the connection is still open, so the coordinator re-runs the
+            // tile elsewhere at once instead of waiting for a broken call.
+            _log.Warning("tile {TileKey} of sweep {SweepId} (attempt {Attempt}) handed back unfinished after {Seconds:F3} s: worker {WorkerId} is stopping",
+                task.TileKey, task.SweepId, task.Attempt, clock.Elapsed.TotalSeconds, Id);
+            _metrics?.WorkerTile("returned");
+            throw StoppingRefusal.Create("worker", $"worker {Id} is stopping: tile {key} handed back unfinished; give it to another worker");
         }
         finally
         {
@@ -121,6 +155,7 @@ public sealed class WorkerRuntime
         }
 
         var entered = false;
+        var arrived = Stopwatch.GetTimestamp();
         try
         {
             await _resolveSlots.WaitAsync(cancellation).ConfigureAwait(false);
@@ -129,7 +164,9 @@ public sealed class WorkerRuntime
             var resolver = await _shards.GetAsync((ask.AtlasId, request.Version, tile.ToString(), ask.Verify), k => LoadShardAsync(k.Atlas, k.Version, k.Tile, k.Verify, cancellation)).ConfigureAwait(false);
             var point = RequestChecks.Point(ask.Point, resolver.Samples.Dimension, "ask.point");
             var answer = resolver.Ask(point);
-            return Conversions.ToReply(answer, ask.RequestId, ask.AtlasId, Id, tile.ToString());
+            var reply = Conversions.ToReply(answer, ask.RequestId, ask.AtlasId, Id, tile.ToString());
+            _metrics?.Resolved(reply.Method, ClusterMetrics.Since(arrived), reply.PathsTracked);
+            return reply;
         }
         finally
         {

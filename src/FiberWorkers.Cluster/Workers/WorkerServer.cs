@@ -16,18 +16,23 @@ public sealed class WorkerServer : IAsyncDisposable
     private readonly CancellationTokenSource _stop = new();
     private readonly Task _agentTask;
     private readonly ILogger _log;
+    private readonly ClusterMetrics _metrics;
 
-    private WorkerServer(GrpcHost host, GrpcChannel channel, WorkerRuntime runtime, WorkerAgent agent, ILogger log)
+    private WorkerServer(GrpcHost host, GrpcChannel channel, WorkerRuntime runtime, WorkerAgent agent, ClusterMetrics metrics, ILogger log)
     {
         _host = host;
         _channel = channel;
         _runtime = runtime;
+        _metrics = metrics;
         _log = log;
         Agent = agent;
         _agentTask = agent.RunAsync(_stop.Token);
     }
 
     public Uri Address => _host.Address;
+
+    /// <summary>The admin listener's address (metrics), or null without one.</summary>
+    public Uri? AdminAddress => _host.AdminAddress;
 
     public string Id => _runtime.Id;
 
@@ -43,7 +48,9 @@ public sealed class WorkerServer : IAsyncDisposable
         ArgumentNullException.ThrowIfNull(log);
         var channel = Security.ChannelSecurity.Open(options.Coordinator, options.Security.Outbound, options.MaxMessageBytes);
         var coordinator = new Coordinator.CoordinatorClient(channel);
-        var runtime = new WorkerRuntime(options, coordinator, log);
+        var metrics = new ClusterMetrics();
+        var runtime = new WorkerRuntime(options, coordinator, log, metrics);
+        metrics.ObserveWorker(runtime.Id, () => runtime.ResolvesWaiting, () => runtime.TilesRunning);
         WorkerAgent? agent = null;
         var host = await GrpcHost.StartAsync(
             new HostSettings
@@ -53,13 +60,22 @@ public sealed class WorkerServer : IAsyncDisposable
                 MaxMessageBytes = options.MaxMessageBytes,
                 DrainTimeout = options.DrainTimeout,
                 Security = options.Security,
+                AdminListen = options.AdminListen,
 
                 // A stopping worker is no longer ready, so orchestrators stop sending it clients.
                 Ready = () => agent?.Registered == true && !runtime.IsStopping,
                 Stopping = () =>
                 {
                     runtime.BeginStopping();
-                    log.Information("worker {WorkerId} stopping: no new tiles; {Running} tiles in flight finish first", runtime.Id, runtime.TilesRunning);
+                    log.Information("worker {WorkerId} stopping: no new tiles; {Running} tiles in flight finish first or are handed back after {HandBackSeconds:F1} s",
+                        runtime.Id, runtime.TilesRunning, runtime.HandBackAfter.TotalSeconds);
+
+                    // In parallel with the host's drain (this callback must not block it): the coordinator stops routing
+                    // tiles and asks here, while the tiles in flight still finish and are returned.
+                    if (agent is { } registered)
+                    {
+                        _ = registered.DeregisterAsync(final: false);
+                    }
                 },
             },
             services => services.AddSingleton(runtime),
@@ -69,8 +85,14 @@ public sealed class WorkerServer : IAsyncDisposable
         agent = new WorkerAgent(coordinator, runtime, advertise, options.Threads, log);
         log.Information("worker {WorkerId} listening on {Address} with {Threads} threads; coordinator {Coordinator}",
             runtime.Id, host.Address.ToString().TrimEnd('/'), options.Threads, options.Coordinator.ToString().TrimEnd('/'));
-        return new WorkerServer(host, channel, runtime, agent, log);
+        return new WorkerServer(host, channel, runtime, agent, metrics, log);
     }
+
+    /// <summary>
+    /// Stops as on SIGTERM: refuses new tiles, deregisters (draining), lets tiles in flight finish or hands them back
+    /// when the drain runs out, then deregisters for good. Completes when the host stopped.
+    /// </summary>
+    public Task StopAsync() => _host.StopAsync();
 
     /// <summary>Refuses new tiles; tiles and resolves in flight finish while the host shuts down.</summary>
     public void BeginStopping()
@@ -93,7 +115,11 @@ public sealed class WorkerServer : IAsyncDisposable
             // Stopped on purpose.
         }
 
+        // Every call has ended: the coordinator may forget this worker now rather than after its missed heartbeats.
+        await Agent.DeregisterAsync(final: true).ConfigureAwait(false);
+        _log.Information("worker {WorkerId} stopped", _runtime.Id);
         _channel.Dispose();
+        _metrics.Dispose();
         _stop.Dispose();
     }
 }
