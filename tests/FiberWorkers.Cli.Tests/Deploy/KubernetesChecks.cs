@@ -1,5 +1,6 @@
 using System.Globalization;
 using System.Text.RegularExpressions;
+using FiberWorkers.Cluster.Hosting;
 
 namespace FiberWorkers.Cli.Tests.Deploy;
 
@@ -191,6 +192,24 @@ internal static partial class KubernetesChecks
         return result;
     }
 
+    /// <summary>The port of <c>--admin-listen</c>, or null when it is absent or not an address.</summary>
+    private static int? AdminPort(FiberInvocation invocation)
+    {
+        if (invocation["--admin-listen"] is not { } text)
+        {
+            return null;
+        }
+
+        try
+        {
+            return ListenAddress.Parse(text, "--admin-listen").Port;
+        }
+        catch (FormatException)
+        {
+            return null;
+        }
+    }
+
     private static void CheckServer(YamlValue workload, YamlValue pod, YamlValue node, FiberInvocation invocation, List<int> ports, HashSet<string> persistent, int shutdownSeconds, Findings findings)
     {
         var problems = findings.Problems;
@@ -202,12 +221,24 @@ internal static partial class KubernetesChecks
                 problems.Add($"{node.At("ports")?.Where ?? node.Where}: no containerPort is {listen.Port}, the port of --listen {listen} ({invocation.WhereOf("--listen")})");
             }
 
+            var admin = AdminPort(invocation);
             foreach (var port in node.Each("ports"))
             {
-                if (port.Text("containerPort") is { } text && int.Parse(text, CultureInfo.InvariantCulture) != listen.Port)
+                if (port.Text("containerPort") is { } text && int.Parse(text, CultureInfo.InvariantCulture) is var number && number != listen.Port && number != admin)
                 {
-                    problems.Add($"{port.At("containerPort")!.Where}: containerPort {text} is not the port fiber listens on ({listen.Port}, {invocation.WhereOf("--listen")})");
+                    problems.Add($"{port.At("containerPort")!.Where}: containerPort {text} is not the port fiber listens on ({listen.Port}, {invocation.WhereOf("--listen")}) nor its --admin-listen port");
                 }
+            }
+
+            // Prometheus scrapes the admin listener (/metrics): the annotation must name its port, which must be a container port.
+            var annotation = workload.At("spec.template.metadata.annotations")?["prometheus.io/port"];
+            if (annotation is not null && (admin is null || annotation.Scalar != admin.Value.ToString(CultureInfo.InvariantCulture)))
+            {
+                problems.Add($"{annotation.Where}: prometheus.io/port {annotation.Scalar} is not the port of --admin-listen ({invocation["--admin-listen"] ?? "not given"}, {invocation.WhereOf("--admin-listen")})");
+            }
+            else if (admin is { } adminPort && !ports.Contains(adminPort))
+            {
+                problems.Add($"{node.At("ports")?.Where ?? node.Where}: no containerPort is {adminPort}, the port of --admin-listen ({invocation.WhereOf("--admin-listen")})");
             }
         }
 

@@ -69,6 +69,9 @@ public sealed class ManifestTests
     {
         // area, file changed, text, replacement, file the problem must name, what it must say
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "containerPort: 7401", "containerPort: 7402", "deploy/kubernetes/base/worker.yaml", "containerPort 7402 is not the port fiber listens on (7401" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "containerPort: 9401", "containerPort: 9402", "deploy/kubernetes/base/worker.yaml", "containerPort 9402 is not the port fiber listens on (7401" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "prometheus.io/port: \"9401\"", "prometheus.io/port: \"9402\"", "deploy/kubernetes/base/worker.yaml", "prometheus.io/port 9402 is not the port of --admin-listen" },
+        { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "- 0.0.0.0:9400", "- 0.0.0.0:9410", "deploy/kubernetes/base/coordinator.yaml", "prometheus.io/port 9400 is not the port of --admin-listen" },
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- --shard-cache", "- --shard-cach", "deploy/kubernetes/base/worker.yaml", "--shard-cach is not an option of 'fiber serve worker'" },
         { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "- --threads\n            - \"2\"", "- --threads\n            - \"0\"", "deploy/kubernetes/base/coordinator.yaml", "--threads 0 is outside [1, 4096]" },
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- name: POD_IP", "- name: POD_ADDRESS", "deploy/kubernetes/base/worker.yaml", "$(POD_IP) is not defined in the container's env" },
