@@ -146,6 +146,7 @@ internal sealed class ClientSecurityArguments
     private readonly Option<string?> _ca = new("--tls-ca") { Description = "Trust https servers whose certificates chain to this CA bundle (PEM) instead of the system's roots." };
     private readonly Option<string?> _certificate = new("--tls-client-cert") { Description = "Present this client certificate (PEM) to servers that require one (mutual TLS)." };
     private readonly Option<string?> _key = new("--tls-client-key") { Description = "The private key of --tls-client-cert (PEM)." };
+    private readonly Option<string?> _serverName = new("--tls-server-name") { Description = "The name server certificates must carry instead of the host of the URL (e.g. workers called at pod IPs)." };
     private readonly Option<string?> _token;
     private readonly string _tokenOption;
     private readonly string _tokenVariable;
@@ -160,7 +161,7 @@ internal sealed class ClientSecurityArguments
         _token = new Option<string?>(tokenOption) { Description = $"A file holding the token {what}; default ${tokenVariable}." };
     }
 
-    public IEnumerable<Option> Options => [_ca, _certificate, _key, _token];
+    public IEnumerable<Option> Options => [_ca, _certificate, _key, _serverName, _token];
 
     /// <summary>Reads the files; errors name the option or the file.</summary>
     public ClientSecurity Resolve(ParseResult parse)
@@ -172,7 +173,13 @@ internal sealed class ClientSecurityArguments
             throw new UsageException(certificate is null ? "--tls-client-key needs --tls-client-cert" : "--tls-client-cert needs --tls-client-key (the certificate's private key)");
         }
 
-        var security = ClientSecurity.Load(parse.GetValue(_ca), certificate, key, parse.GetValue(_token));
+        var serverName = parse.GetValue(_serverName);
+        if (serverName is not null && Uri.CheckHostName(serverName) is not (UriHostNameType.Dns or UriHostNameType.IPv4 or UriHostNameType.IPv6))
+        {
+            throw new UsageException($"--tls-server-name '{serverName}' is not a host name");
+        }
+
+        var security = ClientSecurity.Load(parse.GetValue(_ca), certificate, key, parse.GetValue(_token), serverName);
         if (!security.HasToken && Environment.GetEnvironmentVariable(_tokenVariable) is { Length: > 0 } text)
         {
             var token = text.Trim();

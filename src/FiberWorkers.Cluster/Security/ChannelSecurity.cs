@@ -38,15 +38,12 @@ public static class ChannelSecurity
 
         var options = new GrpcChannelOptions { MaxReceiveMessageSize = maxMessageBytes, MaxSendMessageSize = maxMessageBytes };
         var https = address.Scheme == Uri.UriSchemeHttps;
-        if (https && (security.TrustedRoots is not null || security.ClientCertificate is not null))
+        if (https && (security.TrustedRoots is not null || security.ClientCertificate is not null || security.ServerName is not null))
         {
             var ssl = new SslClientAuthenticationOptions();
-            if (security.TrustedRoots is { } roots)
+            if (security.TrustedRoots is not null || security.ServerName is not null)
             {
-                ssl.RemoteCertificateValidationCallback = (_, certificate, chain, errors) =>
-                    certificate is X509Certificate2 presented
-                    && (errors & ~SslPolicyErrors.RemoteCertificateChainErrors) == SslPolicyErrors.None
-                    && CertificateFiles.Chains(presented, roots, CertificateFiles.ServerAuthentication, Intermediates(chain));
+                ssl.RemoteCertificateValidationCallback = (_, certificate, chain, errors) => Trusted(security, certificate, chain, errors);
             }
 
             if (security.ClientCertificate is { } mine)
@@ -74,6 +71,28 @@ public static class ChannelSecurity
         }
 
         return GrpcChannel.ForAddress(address, options);
+    }
+
+    /// <summary>
+    /// A server certificate chains to the client's roots (or the system's, when it has none) and names the client's
+    /// <see cref="ClientSecurity.ServerName"/> (or the URL's host, as the TLS stack checked).
+    /// </summary>
+    private static bool Trusted(ClientSecurity security, X509Certificate? certificate, X509Chain? chain, SslPolicyErrors errors)
+    {
+        if (certificate is not X509Certificate2 presented)
+        {
+            return false;
+        }
+
+        var ignored = security.ServerName is null ? SslPolicyErrors.None : SslPolicyErrors.RemoteCertificateNameMismatch;
+        if (security.TrustedRoots is { } roots)
+        {
+            ignored |= SslPolicyErrors.RemoteCertificateChainErrors;
+        }
+
+        return (errors & ~ignored) == SslPolicyErrors.None
+            && (security.TrustedRoots is not { } trusted || CertificateFiles.Chains(presented, trusted, CertificateFiles.ServerAuthentication, Intermediates(chain)))
+            && (security.ServerName is not { } name || presented.MatchesHostname(name));
     }
 
     /// <summary>True for localhost, 127.0.0.0/8 and ::1.</summary>

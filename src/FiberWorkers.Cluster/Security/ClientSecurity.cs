@@ -13,7 +13,11 @@ public sealed class ClientSecurity
     private readonly string? _token;
 
     /// <summary>Creates client settings; <paramref name="token"/> must pass <see cref="TokenTable.TokenProblem"/>.</summary>
-    public ClientSecurity(X509Certificate2Collection? trustedRoots = null, X509Certificate2? clientCertificate = null, string? token = null)
+    /// <param name="trustedRoots">The roots https servers must chain to; null: the system's.</param>
+    /// <param name="clientCertificate">Presented under mutual TLS; null: none.</param>
+    /// <param name="token">The bearer token; null: none.</param>
+    /// <param name="serverName">The name server certificates must carry instead of the host of the URL (workers called by IP); null: the URL's host.</param>
+    public ClientSecurity(X509Certificate2Collection? trustedRoots = null, X509Certificate2? clientCertificate = null, string? token = null, string? serverName = null)
     {
         if (token is not null && TokenTable.TokenProblem(token) is { } problem)
         {
@@ -25,8 +29,14 @@ public sealed class ClientSecurity
             throw new ArgumentException("the client certificate needs its private key", nameof(clientCertificate));
         }
 
+        if (serverName is not null && Uri.CheckHostName(serverName) is not (UriHostNameType.Dns or UriHostNameType.IPv4 or UriHostNameType.IPv6))
+        {
+            throw new ArgumentException($"'{serverName}' is not a host name", nameof(serverName));
+        }
+
         TrustedRoots = trustedRoots;
         ClientCertificate = clientCertificate;
+        ServerName = serverName;
         _token = token;
     }
 
@@ -39,6 +49,9 @@ public sealed class ClientSecurity
     /// <summary>Presented to servers that require client certificates; null: none.</summary>
     public X509Certificate2? ClientCertificate { get; }
 
+    /// <summary>The name every server certificate must carry (instead of the URL's host); null: the URL's host.</summary>
+    public string? ServerName { get; }
+
     /// <summary>True when calls carry a bearer token.</summary>
     public bool HasToken => _token is not null;
 
@@ -49,7 +62,7 @@ public sealed class ClientSecurity
     /// Reads the files a command line names: a CA bundle, a client certificate and key (both or neither) and a token
     /// file (its first line, surrounding white space removed). Errors name the file.
     /// </summary>
-    public static ClientSecurity Load(string? caFile, string? certificateFile, string? keyFile, string? tokenFile)
+    public static ClientSecurity Load(string? caFile, string? certificateFile, string? keyFile, string? tokenFile, string? serverName = null)
     {
         var roots = caFile is null ? null : CertificateFiles.LoadBundle(caFile);
         X509Certificate2? certificate = null;
@@ -62,7 +75,7 @@ public sealed class ClientSecurity
             throw new ArgumentException("a client certificate needs both its certificate file and its key file");
         }
 
-        return new ClientSecurity(roots, certificate, tokenFile is null ? null : ReadToken(tokenFile));
+        return new ClientSecurity(roots, certificate, tokenFile is null ? null : ReadToken(tokenFile), serverName);
     }
 
     /// <summary>The token held by a token file: its text without surrounding white space (a trailing newline is usual).</summary>
@@ -83,9 +96,9 @@ public sealed class ClientSecurity
     }
 
     /// <summary>The same settings with another token.</summary>
-    public ClientSecurity WithToken(string? token) => new(TrustedRoots, ClientCertificate, token);
+    public ClientSecurity WithToken(string? token) => new(TrustedRoots, ClientCertificate, token, ServerName);
 
     /// <summary>What is set, for logs: never the token.</summary>
     public override string ToString() =>
-        $"roots: {(TrustedRoots is null ? "system" : $"{TrustedRoots.Count} from file")}, client certificate: {ClientCertificate?.Subject ?? "none"}, token: {(HasToken ? "given" : "none")}";
+        $"roots: {(TrustedRoots is null ? "system" : $"{TrustedRoots.Count} from file")}, client certificate: {ClientCertificate?.Subject ?? "none"}, server name: {ServerName ?? "from the URL"}, token: {(HasToken ? "given" : "none")}";
 }

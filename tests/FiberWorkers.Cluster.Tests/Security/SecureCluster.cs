@@ -43,9 +43,11 @@ internal sealed class SecureCluster : IAsyncDisposable
     private readonly SqliteAtlasStore _ledger;
     private readonly Logger _logger;
     private readonly LogCapture _capture;
+    private readonly string? _serverName;
 
-    private SecureCluster(TempDirectory directory, SqliteAtlasStore ledger, Logger logger, LogCapture capture, CoordinatorServer coordinator, WorkerServer worker, CertificateKit? kit)
+    private SecureCluster(TempDirectory directory, SqliteAtlasStore ledger, Logger logger, LogCapture capture, CoordinatorServer coordinator, WorkerServer worker, CertificateKit? kit, string? serverName)
     {
+        _serverName = serverName;
         _directory = directory;
         _ledger = ledger;
         _logger = logger;
@@ -77,12 +79,13 @@ internal sealed class SecureCluster : IAsyncDisposable
 
     /// <param name="tls">Serve (and call) with TLS.</param>
     /// <param name="mutual">Require client certificates of the test CA (with <paramref name="tls"/>).</param>
-    public static async Task<SecureCluster> StartAsync(bool tls = false, bool mutual = false)
+    /// <param name="serverName">The only name the server certificate carries (every channel then checks it instead of 127.0.0.1).</param>
+    public static async Task<SecureCluster> StartAsync(bool tls = false, bool mutual = false, string? serverName = null)
     {
         var directory = new TempDirectory();
         var capture = new LogCapture();
         var logger = new LoggerConfiguration().MinimumLevel.Verbose().WriteTo.Sink(capture).CreateLogger();
-        var kit = tls ? CertificateKit.Create(["localhost", "127.0.0.1"], 1) : null;
+        var kit = tls ? CertificateKit.Create(serverName is null ? ["localhost", "127.0.0.1"] : [serverName], 1) : null;
         var tokens = TokenTable.Parse(TokenFileJson(), "test tokens");
         var roots = kit is null ? null : new X509Certificate2Collection(kit.Authority);
         ServerTls? serverTls = kit is null ? null : ServerTls.FromCertificates(kit.Server, mutual ? roots : null);
@@ -90,14 +93,14 @@ internal sealed class SecureCluster : IAsyncDisposable
         {
             Tls = serverTls,
             Tokens = tokens,
-            Outbound = new ClientSecurity(roots, mutual ? kit!.Server : null, Tokens["workers"]),
+            Outbound = new ClientSecurity(roots, mutual ? kit!.Server : null, Tokens["workers"], serverName),
         };
-        var workerSecurity = coordinatorSecurity with { Outbound = new ClientSecurity(roots, mutual ? kit!.Client : null, Tokens["workers"]) };
+        var workerSecurity = coordinatorSecurity with { Outbound = new ClientSecurity(roots, mutual ? kit!.Client : null, Tokens["workers"], serverName) };
         var ledger = SqliteAtlasStore.Open(directory.File("cluster.db"));
         var listen = ListenAddress.Parse("127.0.0.1:0", "test");
         var coordinator = await CoordinatorServer.StartAsync(ledger, CoordinatorOptions.Default with { StartFiberThreads = 1, Security = coordinatorSecurity }, listen, logger);
         var worker = await WorkerServer.StartAsync(new WorkerOptions { Coordinator = coordinator.Address, Threads = 1, Id = "secure-0", Security = workerSecurity }, listen, logger);
-        var cluster = new SecureCluster(directory, ledger, logger, capture, coordinator, worker, kit);
+        var cluster = new SecureCluster(directory, ledger, logger, capture, coordinator, worker, kit, serverName);
         using var client = cluster.Client("everything");
         await ClusterScenario.WaitUntil(async () => (await ClusterScenario.Workers(client)).Count == 1, TimeSpan.FromSeconds(20), "the worker to register");
         return cluster;
@@ -105,7 +108,7 @@ internal sealed class SecureCluster : IAsyncDisposable
 
     /// <summary>Client settings with the named token (null: none), the test CA's roots and, when asked, the client certificate.</summary>
     public ClientSecurity Security(string? token, bool certificate = true) =>
-        new(Kit is null ? null : new X509Certificate2Collection(Kit.Authority), certificate ? Kit?.Client : null, token is null ? null : Tokens[token]);
+        new(Kit is null ? null : new X509Certificate2Collection(Kit.Authority), certificate ? Kit?.Client : null, token is null ? null : Tokens[token], _serverName);
 
     public ClusterClient Client(string? token, bool certificate = true) => new(Coordinator.Address, security: Security(token, certificate));
 

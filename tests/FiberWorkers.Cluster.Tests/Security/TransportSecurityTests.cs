@@ -44,6 +44,25 @@ public sealed class TransportSecurityTests
     }
 
     [Fact]
+    public async Task Servers_called_by_address_are_checked_against_the_configured_server_name()
+    {
+        // The certificate names only "fiber-node", as one certificate for workers reached at changing pod IPs would.
+        await using var cluster = await SecureCluster.StartAsync(tls: true, mutual: true, serverName: "fiber-node");
+        using var client = cluster.Client("everything");
+        var outcome = await client.SweepAsync(SecureCluster.SweepRequest()).WaitAsync(TimeSpan.FromSeconds(120));
+        var ask = new AskRequest { AtlasId = outcome.AtlasId };
+        ask.Point.Add([-1.0, 0.1]);
+        Assert.Equal(3, (await client.AskDirectAsync(ask)).RealCount);
+
+        var roots = new X509Certificate2Collection(cluster.Kit!.Authority);
+        var token = SecureCluster.Tokens["everything"];
+        using var byAddress = new ClusterClient(cluster.Coordinator.Address, security: new ClientSecurity(roots, cluster.Kit.Client, token));
+        await AssertTransportRefused(() => byAddress.VersionsAsync(string.Empty));
+        using var otherName = new ClusterClient(cluster.Coordinator.Address, security: new ClientSecurity(roots, cluster.Kit.Client, token, "another-node"));
+        await AssertTransportRefused(() => otherName.VersionsAsync(string.Empty));
+    }
+
+    [Fact]
     public async Task A_plaintext_client_cannot_call_a_tls_listener()
     {
         await using var cluster = await SecureCluster.StartAsync(tls: true);
