@@ -261,6 +261,13 @@ public static class RequestChecks
         Id(request.WorkerId, "worker_id");
     }
 
+    public static void DeregisterWorker(DeregisterWorkerRequest request)
+    {
+        ArgumentNullException.ThrowIfNull(request);
+        Id(request.WorkerId, "worker_id");
+        Id(request.Reason, "reason", required: false);
+    }
+
     public static void FetchSweepSetup(SweepSetupRequest request, RequestLimits limits)
     {
         ArgumentNullException.ThrowIfNull(request);

@@ -79,8 +79,7 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
 
     public override Task<DeregisterWorkerReply> DeregisterWorker(DeregisterWorkerRequest request, ServerCallContext context)
     {
-        RequestChecks.Id(request.WorkerId, "worker_id");
-        RequestChecks.Id(request.Reason, "reason", required: false);
+        RequestChecks.DeregisterWorker(request);
         return Task.FromResult(new DeregisterWorkerReply { Known = _pool.Deregister(request.WorkerId, request.Final) });
     }
 

@@ -42,6 +42,11 @@ internal static class DecodingTargets
             SampleBudget = 100_000,
             StartMethod = "auto",
         };
+
+        // two-bus has one parameter: a submission the validator accepts, so mutants reach the accepting path too.
+        var oneAxis = settings.Clone();
+        oneAxis.Divisions.Clear();
+        oneAxis.Divisions.Add(6);
         var ask = new AskRequest
         {
             AtlasId = "a0123456789abcde",
@@ -54,6 +59,7 @@ internal static class DecodingTargets
         [
             new("SubmitSweepRequest", SubmitSweepRequest.Parser,
             [
+                new SubmitSweepRequest { FamilyJson = familyJson, Settings = oneAxis, Source = "two-bus.json" },
                 new SubmitSweepRequest { FamilyJson = familyJson, Settings = settings, Source = "two-bus.json" },
                 new SubmitSweepRequest { FamilyJson = "{}", Settings = new SweepSettings() },
                 new SubmitSweepRequest { FamilyJson = familyJson, Source = "é ✓ ünïcode.json" },
@@ -76,6 +82,9 @@ internal static class DecodingTargets
             new("HeartbeatRequest", HeartbeatRequest.Parser,
                 [new HeartbeatRequest { WorkerId = "w-1", TilesRunning = 2, ResolvesQueued = 1000 }, new HeartbeatRequest { TilesRunning = int.MinValue }],
                 Validate: m => RequestChecks.Heartbeat((HeartbeatRequest)m)),
+            new("DeregisterWorkerRequest", DeregisterWorkerRequest.Parser,
+                [new DeregisterWorkerRequest { WorkerId = "w-1", Reason = "stopping" }, new DeregisterWorkerRequest { WorkerId = "w-1", Final = true }, new DeregisterWorkerRequest()],
+                Validate: m => RequestChecks.DeregisterWorker((DeregisterWorkerRequest)m)),
             new("ListWorkersRequest", ListWorkersRequest.Parser, [new ListWorkersRequest()]),
             new("SweepSetupRequest", SweepSetupRequest.Parser,
                 [new SweepSetupRequest { FamilyHash = new string('f', 64), Settings = settings }, new SweepSetupRequest()],
