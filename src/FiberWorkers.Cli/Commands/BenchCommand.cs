@@ -19,6 +19,7 @@ internal static class BenchCommand
         var command = new Command("bench", "Measure solver throughput; prints JSON.");
         command.Subcommands.Add(CreateSolve(output));
         command.Subcommands.Add(MonodromyBenchmark.Create(output));
+        command.Subcommands.Add(SweepBenchmark.Create(output));
         command.Subcommands.Add(CreateResolve(output));
         command.Subcommands.Add(CreateCluster(output));
         command.Subcommands.Add(CreateAsk(output));
