@@ -37,7 +37,7 @@ internal static class ServeCommand
 
     private static Option<string?> AdminListen() => new("--admin-listen")
     {
-        Description = "Address (HOST:PORT) of the admin listener: plain HTTP/1.1 serving /metrics (Prometheus text format), /healthz and /readyz, no gRPC. Default: none.",
+        Description = "Address (HOST:PORT) of the admin listener: HTTP/1.1 (with the server's TLS; off loopback only with TLS) serving /metrics (Prometheus text format), /healthz and /readyz, no gRPC. Default: none.",
     };
 
     private static Command CreateCoordinator(TextWriter error)
@@ -76,6 +76,7 @@ internal static class ServeCommand
             };
             var (requestLimits, messageBytes) = limits.Read(parse);
             options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
+            CheckAdmin(options.AdminListen, options.Security);
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "coordinator");
             using var ledger = LedgerStores.Open(parse.GetValue(store)!);
             var server = await Start(() => CoordinatorServer.StartAsync(ledger, options, address, log, cancellation), address, error).ConfigureAwait(false);
@@ -133,6 +134,7 @@ internal static class ServeCommand
                 throw new UsageException($"--listen {address} binds every interface: give --advertise http://HOST:{address.Port} with the address others reach this worker at");
             }
 
+            CheckAdmin(options.AdminListen, options.Security);
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "worker");
             if (options.Fault is not null)
             {
@@ -175,6 +177,15 @@ internal static class ServeCommand
         catch (OperationCanceledException)
         {
             // Ctrl+C or SIGTERM: stop gracefully.
+        }
+    }
+
+    /// <summary>The admin listener is held to the gRPC listener's rule: off loopback only with TLS (the server's own certificate serves it).</summary>
+    private static void CheckAdmin(ListenAddress? admin, FiberWorkers.Cluster.Security.ServerSecurity security)
+    {
+        if (admin is not null && security.Problem(admin) is { } problem)
+        {
+            throw new UsageException($"--admin-listen {problem}");
         }
     }
 

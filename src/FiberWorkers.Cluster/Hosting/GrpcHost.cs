@@ -35,8 +35,9 @@ public sealed record HostSettings
     public ServerSecurity Security { get; init; } = ServerSecurity.None;
 
     /// <summary>
-    /// Where the admin listener binds (plain HTTP/1.1: <c>/metrics</c> in Prometheus text format, <c>/healthz</c>,
-    /// <c>/readyz</c>; no gRPC); null (the default): no admin listener.
+    /// Where the admin listener binds (HTTP/1.1: <c>/metrics</c> in Prometheus text format, <c>/healthz</c>,
+    /// <c>/readyz</c>; no gRPC), with the TLS of <see cref="Security"/> and under the same rule (off loopback only with
+    /// TLS); null (the default): no admin listener.
     /// </summary>
     public ListenAddress? AdminListen { get; init; }
 }
@@ -95,9 +96,16 @@ public sealed class GrpcHost : IAsyncDisposable
         });
         if (settings.AdminListen is { } adminListen)
         {
+            // Held to the gRPC listener's rule and served with its TLS: off loopback only over TLS.
+            if (settings.Security.Problem(adminListen) is { } adminInsecure)
+            {
+                throw new InvalidOperationException($"admin listener: {adminInsecure}");
+            }
+
             builder.WebHost.ConfigureKestrel(kestrel => kestrel.Listen(adminListen.Address, adminListen.Port, endpoint =>
             {
                 endpoint.Protocols = HttpProtocols.Http1;
+                settings.Security.Tls?.Configure(endpoint);
                 admin = endpoint;
             }));
             AdminEndpoint.AddServices(builder.Services);
@@ -148,7 +156,7 @@ public sealed class GrpcHost : IAsyncDisposable
 
         settings.Logger.Information("security: {Security}", settings.Security.Describe());
         var bound = app.Services.GetRequiredService<IServer>().Features.Get<IServerAddressesFeature>()!.Addresses.First();
-        var adminAddress = admin?.IPEndPoint is { } adminBound ? new Uri($"http://{new ListenAddress(adminBound.Address, adminBound.Port)}") : null;
+        var adminAddress = admin?.IPEndPoint is { } adminBound ? new Uri($"{(settings.Security.Tls is null ? "http" : "https")}://{new ListenAddress(adminBound.Address, adminBound.Port)}") : null;
         return new GrpcHost(app, new Uri(bound.Replace("[::]", "[::1]", StringComparison.Ordinal).Replace("0.0.0.0", "127.0.0.1", StringComparison.Ordinal)), adminAddress);
     }
 

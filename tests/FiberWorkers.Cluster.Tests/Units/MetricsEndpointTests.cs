@@ -7,6 +7,7 @@ using FiberWorkers.Cluster.Client;
 using FiberWorkers.Cluster.Contracts;
 using FiberWorkers.Cluster.Coordination;
 using FiberWorkers.Cluster.Hosting;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Cluster.Tests.Support;
 using FiberWorkers.Cluster.Workers;
 using FiberWorkers.Contracts.V1;
@@ -125,6 +126,39 @@ public sealed partial class MetricsEndpointTests
 
             await coordinator.DisposeAsync();
         }
+    }
+
+    [Fact]
+    public async Task The_admin_listener_is_served_with_the_servers_TLS_and_refused_off_loopback_without_it()
+    {
+        using var directory = new TempDirectory();
+        await using var log = new Serilog.LoggerConfiguration().CreateLogger();
+        using var ledger = SqliteAtlasStore.Open(directory.File("cluster.db"));
+        var listen = ListenAddress.Parse("127.0.0.1:0", "test");
+        using var kit = CertificateKit.Create(["localhost", "127.0.0.1"], 1);
+        var security = new ServerSecurity { Tls = ServerTls.FromCertificates(kit.Server), InsecureNoAuth = true };
+        var coordinator = await CoordinatorServer.StartAsync(
+            ledger, CoordinatorOptions.Default with { Security = security, AdminListen = ListenAddress.Parse("127.0.0.1:0", "admin") }, listen, log);
+        try
+        {
+            Assert.Equal("https", coordinator.AdminAddress!.Scheme);
+            using var handler = new HttpClientHandler { ServerCertificateCustomValidationCallback = (_, certificate, _, _) => certificate?.Thumbprint == kit.Server.Thumbprint };
+            using var https = new HttpClient(handler) { BaseAddress = coordinator.AdminAddress };
+            var text = await https.GetStringAsync(new Uri("/metrics", UriKind.Relative));
+            Assert.Contains("fiberworkers_workers", text, StringComparison.Ordinal);
+
+            // The same port in plaintext does not answer.
+            using var plain = new HttpClient { BaseAddress = new UriBuilder(coordinator.AdminAddress) { Scheme = "http" }.Uri, Timeout = TimeSpan.FromSeconds(10) };
+            await Assert.ThrowsAnyAsync<HttpRequestException>(() => plain.GetStringAsync(new Uri("/metrics", UriKind.Relative)));
+        }
+        finally
+        {
+            await coordinator.DisposeAsync();
+        }
+
+        var refused = await Assert.ThrowsAsync<InvalidOperationException>(() => CoordinatorServer.StartAsync(
+            ledger, CoordinatorOptions.Default with { AdminListen = ListenAddress.Parse("0.0.0.0:0", "admin") }, listen, log));
+        Assert.Contains("admin listener: 0.0.0.0:0 is not a loopback address", refused.Message, StringComparison.Ordinal);
     }
 
     [Fact]
