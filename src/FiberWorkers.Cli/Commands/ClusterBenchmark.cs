@@ -7,6 +7,7 @@ using FiberWorkers.Cluster.Client;
 using FiberWorkers.Cluster.Contracts;
 using FiberWorkers.Cluster.Coordination;
 using FiberWorkers.Cluster.Hosting;
+using FiberWorkers.Cluster.Security;
 using FiberWorkers.Contracts.V1;
 using FiberWorkers.Solving.Randomness;
 using Google.Protobuf;
@@ -90,9 +91,9 @@ internal static class ClusterBenchmark
     }
 
     /// <summary>Routed asks from <paramref name="clients"/> concurrent clients for <paramref name="seconds"/>.</summary>
-    public static async Task<AskLoad> AskAsync(Uri coordinator, string atlasId, int clients, double seconds, ulong seed, CancellationToken cancellation)
+    public static async Task<AskLoad> AskAsync(Uri coordinator, ClientSecurity security, string atlasId, int clients, double seconds, ulong seed, CancellationToken cancellation)
     {
-        using var client = new ClusterClient(coordinator);
+        using var client = new ClusterClient(coordinator, security: security);
         var versions = await client.VersionsAsync(atlasId, cancellation).ConfigureAwait(false);
         if (versions.Count == 0)
         {
@@ -119,7 +120,7 @@ internal static class ClusterBenchmark
         await Task.WhenAll(Enumerable.Range(0, clients).Select(c => Task.Run(
             async () =>
             {
-                using var own = new ClusterClient(coordinator);
+                using var own = new ClusterClient(coordinator, security: security);
                 for (var i = c; stop.Elapsed.TotalSeconds < seconds; i += clients)
                 {
                     var ask = new AskRequest { AtlasId = atlasId, RequestId = $"{c}-{i}" };
@@ -210,7 +211,7 @@ internal static class ClusterBenchmark
             start.ArgumentList.Add(typeof(ClusterBenchmark).Assembly.Location);
         }
 
-        foreach (var argument in new[] { "serve", "worker", "--listen", "127.0.0.1:0", "--coordinator", coordinator.ToString().TrimEnd('/'), "--threads", "1", "--id", id, "--log-format", "json" })
+        foreach (var argument in new[] { "serve", "worker", "--listen", "127.0.0.1:0", "--coordinator", coordinator.ToString().TrimEnd('/'), "--threads", "1", "--id", id, "--log-format", "json", "--plaintext" })
         {
             start.ArgumentList.Add(argument);
         }

@@ -60,6 +60,8 @@ internal static class ServeCommand
 
         var limits = ServeLimits.ForCoordinator();
         limits.AddTo(command);
+        var security = new ServerSecurityArguments(new ClientSecurityArguments("--worker-token-file", "FIBER_WORKER_TOKEN", "presented to workers (a token with the worker role)"));
+        security.AddTo(command);
 
         command.SetAction(async (parse, cancellation) =>
         {
@@ -76,6 +78,7 @@ internal static class ServeCommand
             };
             var (requestLimits, messageBytes) = limits.Read(parse);
             options = options with { Limits = requestLimits, MaxMessageBytes = messageBytes };
+            options = options with { Security = security.Resolve(parse, address) };
             CheckAdmin(options.AdminListen, options.Security);
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "coordinator");
             using var ledger = LedgerStores.Open(parse.GetValue(store)!);
@@ -111,6 +114,8 @@ internal static class ServeCommand
 
         var limits = ServeLimits.ForWorker();
         limits.AddTo(command);
+        var security = new ServerSecurityArguments(new ClientSecurityArguments("--token-file", "FIBER_TOKEN", "presented to the coordinator (a token with the worker role)"));
+        security.AddTo(command);
 
         command.SetAction(async (parse, cancellation) =>
         {
@@ -134,6 +139,7 @@ internal static class ServeCommand
                 throw new UsageException($"--listen {address} binds every interface: give --advertise http://HOST:{address.Port} with the address others reach this worker at");
             }
 
+            options = options with { Security = security.ResolveWorker(parse, address, options.Coordinator, options.Advertise) };
             CheckAdmin(options.AdminListen, options.Security);
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "worker");
             if (options.Fault is not null)

@@ -25,12 +25,29 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
         _queries = queries;
     }
 
-    public override Task<SubmitSweepReply> SubmitSweep(SubmitSweepRequest request, ServerCallContext context) =>
-        Task.Run(() => _sweeps.Submit(request, Caller.Key(context)), context.CancellationToken);
+    public override async Task<SubmitSweepReply> SubmitSweep(SubmitSweepRequest request, ServerCallContext context)
+    {
+        var caller = Caller.Of(context);
+        var reply = await Task.Run(() => _sweeps.Submit(request, Caller.Key(context), TenantScope.NamespaceOf(caller)), context.CancellationToken).ConfigureAwait(false);
+        reply.AtlasId = TenantScope.Outside(caller, reply.AtlasId);
+        return reply;
+    }
 
     public override Task WatchSweep(WatchSweepRequest request, IServerStreamWriter<SweepProgressUpdate> responseStream, ServerCallContext context)
     {
         RequestChecks.WatchSweep(request);
+        var caller = Caller.Of(context);
+        if (caller?.Tenant is not null)
+        {
+            // Another tenant's sweep is as unknown as one that does not exist.
+            if (_sweeps.AtlasOf(request.SweepId) is not { } atlas || !TenantScope.Sees(caller, atlas))
+            {
+                throw new RpcException(new Status(StatusCode.NotFound, $"sweep_id: no sweep {request.SweepId}"));
+            }
+
+            responseStream = new TenantProgressWriter(responseStream, caller);
+        }
+
         return _sweeps.WatchAsync(request.SweepId, responseStream, context.CancellationToken);
     }
 
@@ -39,7 +56,13 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
         _queries.Take(Caller.Key(context));
         RequestChecks.ListVersions(request);
         var reply = new ListVersionsReply();
-        reply.Versions.Add(_catalog.Versions(request.AtlasId));
+        var caller = Caller.Of(context);
+        foreach (var version in _catalog.Versions(TenantScope.Inside(caller, request.AtlasId)).Where(v => TenantScope.Sees(caller, v.AtlasId)))
+        {
+            version.AtlasId = TenantScope.Outside(caller, version.AtlasId);
+            reply.Versions.Add(version);
+        }
+
         return Task.FromResult(reply);
     }
 
@@ -47,14 +70,26 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
     {
         _queries.Take(Caller.Key(context));
         var root = RequestChecks.FetchShard(request);
-        return Task.Run(() => ShardWithin(_catalog.Shard(_catalog.View(request.AtlasId, request.Version), root)), context.CancellationToken);
+        var caller = Caller.Of(context);
+        return Task.Run(
+            () =>
+            {
+                var shard = ShardWithin(_catalog.Shard(_catalog.View(TenantScope.Inside(caller, request.AtlasId), request.Version), root));
+                shard.AtlasId = TenantScope.Outside(caller, shard.AtlasId);
+                return shard;
+            },
+            context.CancellationToken);
     }
 
-    public override Task<AskReply> Ask(AskRequest request, ServerCallContext context)
+    public override async Task<AskReply> Ask(AskRequest request, ServerCallContext context)
     {
         _queries.Take(Caller.Key(context));
         RequestChecks.Ask(request, _options.Limits);
-        return _router.AskAsync(request, context.CancellationToken);
+        var caller = Caller.Of(context);
+        request.AtlasId = TenantScope.Inside(caller, request.AtlasId);
+        var reply = await _router.AskAsync(request, context.CancellationToken).ConfigureAwait(false);
+        reply.AtlasId = TenantScope.Outside(caller, reply.AtlasId);
+        return reply;
     }
 
     public override Task<ListWorkersReply> ListWorkers(ListWorkersRequest request, ServerCallContext context)
@@ -67,6 +102,11 @@ public sealed class CoordinatorService : Coordinator.CoordinatorBase
     public override Task<RegisterWorkerReply> RegisterWorker(RegisterWorkerRequest request, ServerCallContext context)
     {
         var address = RequestChecks.RegisterWorker(request);
+        if (ChannelSecurity.Problem(address, _options.Security.Outbound) is { } unreachable)
+        {
+            throw RequestChecks.Invalid("address", unreachable);
+        }
+
         _pool.Register(request.WorkerId, address, request.Threads);
         return Task.FromResult(new RegisterWorkerReply { HeartbeatSeconds = _options.Heartbeat.TotalSeconds });
     }

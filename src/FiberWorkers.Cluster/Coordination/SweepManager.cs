@@ -55,7 +55,10 @@ public sealed class SweepManager : IDisposable
     /// <see cref="RequestLimits.MaxConcurrentSweeps"/> sweeps running; joining one that runs does not count. Null:
     /// not counted (sweeps resumed after a restart, in-process callers).
     /// </summary>
-    public SubmitSweepReply Submit(SubmitSweepRequest request, string? caller = null)
+    /// <param name="request">The submission.</param>
+    /// <param name="caller">Who counts it (see <c>Caller.Key</c>); null: not counted.</param>
+    /// <param name="atlasNamespace">The tenant's namespace the atlas lives in ("acme/", see <c>TenantScope</c>); null: none.</param>
+    public SubmitSweepReply Submit(SubmitSweepRequest request, string? caller = null, string? atlasNamespace = null)
     {
         ArgumentNullException.ThrowIfNull(request);
         if (_dispatcher.IsDraining)
@@ -70,8 +73,8 @@ public sealed class SweepManager : IDisposable
         lock (_admission)
         {
             // Held from the count to the start, so two submissions of one caller cannot both take the last slot.
-            Admit(caller, SweepRunner.AtlasIdOf(family), options.CanonicalText);
-            (atlasId, sweepId) = new SweepRunner(_ledger).Begin(family, options);
+            Admit(caller, atlasNamespace + SweepRunner.AtlasIdOf(family), options.CanonicalText);
+            (atlasId, sweepId) = new SweepRunner(_ledger) { AtlasNamespace = atlasNamespace }.Begin(family, options);
             _ledger.SaveSweepRequest(sweepId, atlasId, request.ToByteArray());
             started = Start(sweepId, atlasId, family, options, caller);
         }
@@ -100,6 +103,20 @@ public sealed class SweepManager : IDisposable
                 _log.Error("sweep {SweepId} cannot be resumed: its kept request is unreadable ({Reason})", record.SweepId, e.Message);
             }
         }
+    }
+
+    /// <summary>The store id of the atlas a sweep writes to (running here or recorded in the ledger), or null for an unknown sweep.</summary>
+    public string? AtlasOf(long sweepId)
+    {
+        lock (_gate)
+        {
+            if (_runs.TryGetValue(sweepId, out var run))
+            {
+                return run.AtlasId;
+            }
+        }
+
+        return _ledger.Sweep(sweepId)?.AtlasId;
     }
 
     /// <summary>Streams progress until the sweep finishes or fails.</summary>
@@ -262,7 +279,7 @@ public sealed class SweepManager : IDisposable
         var progress = new Progress(run);
         try
         {
-            var runner = new SweepRunner(_ledger, _dispatcher.OnMerged);
+            var runner = new SweepRunner(_ledger, _dispatcher.OnMerged) { AtlasNamespace = Security.TenantScope.NamespaceOf(run.AtlasId) };
             var summary = await runner.RunAsync(family, options, _dispatcher.ComputeAsync, progress, _stopping.Token).ConfigureAwait(false);
             _catalog.Committed(run.AtlasId);
             _log.Information("sweep {SweepId} committed version {Version} of atlas {AtlasId}: {Tiles} tiles, {Samples} samples, content {ContentHash}",

@@ -105,7 +105,7 @@ public sealed class GrpcHost : IAsyncDisposable
             builder.WebHost.ConfigureKestrel(kestrel => kestrel.Listen(adminListen.Address, adminListen.Port, endpoint =>
             {
                 endpoint.Protocols = HttpProtocols.Http1;
-                settings.Security.Tls?.Configure(endpoint);
+                settings.Security.Tls?.Configure(endpoint, clientCertificates: false);
                 admin = endpoint;
             }));
             AdminEndpoint.AddServices(builder.Services);

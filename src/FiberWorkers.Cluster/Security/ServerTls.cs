@@ -48,7 +48,12 @@ public sealed class ServerTls
     }
 
     /// <summary>Switches a Kestrel endpoint to TLS 1.2/1.3 with this certificate (and client certificates when required).</summary>
-    internal void Configure(ListenOptions endpoint)
+    /// <param name="endpoint">The endpoint.</param>
+    /// <param name="clientCertificates">
+    /// Require client certificates when <see cref="MutualTls"/>; false for the admin listener, whose callers (probes,
+    /// metrics scrapers) carry none and which serves no atlas data.
+    /// </param>
+    internal void Configure(ListenOptions endpoint, bool clientCertificates = true)
     {
         endpoint.UseHttps(https =>
         {
@@ -59,7 +64,7 @@ public sealed class ServerTls
             }
 
             https.SslProtocols = SslProtocols.Tls12 | SslProtocols.Tls13;
-            if (ClientAuthorities is { } roots)
+            if (ClientAuthorities is { } roots && clientCertificates)
             {
                 https.ClientCertificateMode = ClientCertificateMode.RequireCertificate;
                 https.ClientCertificateValidation = (certificate, chain, _) =>

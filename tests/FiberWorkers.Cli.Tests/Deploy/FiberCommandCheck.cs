@@ -197,17 +197,21 @@ internal sealed partial class FiberCommandCheck
         {
             case "serve coordinator":
                 CheckServer(invocation, problems);
+                CheckServerSecurity(invocation, environment, problems);
                 CheckStore(invocation, environment, problems);
                 break;
             case "serve worker":
                 CheckServer(invocation, problems);
+                CheckServerSecurity(invocation, environment, problems);
                 CheckWorker(invocation, problems);
                 break;
             case "sweep":
                 CheckSweep(invocation, problems);
+                CheckClientSecurity(invocation, environment, problems);
                 break;
             case "ask":
                 CheckAsk(invocation, problems);
+                CheckClientSecurity(invocation, environment, problems);
                 break;
         }
 

@@ -250,9 +250,41 @@ internal static partial class KubernetesChecks
                 continue;
             }
 
+            // A TLS listener cannot be probed natively (kubelet's gRPC probes speak plaintext only): ask the admin listener.
+            if (probe["httpGet"] is { } http)
+            {
+                var adminPort = AdminPort(invocation);
+                var path = service.Length == 0 ? "/healthz" : "/readyz";
+                if (adminPort is null || http.Text("port") != adminPort.Value.ToString(CultureInfo.InvariantCulture))
+                {
+                    problems.Add($"{http.At("port")?.Where ?? http.Where}: {probeName} asks port {http.Text("port") ?? "(none)"}, but the admin listener (--admin-listen) is {invocation["--admin-listen"] ?? "not given"} ({invocation.WhereOf("--admin-listen")})");
+                }
+
+                var scheme = invocation["--tls-cert"] is null ? "HTTP" : "HTTPS";
+                if ((http.Text("scheme") ?? "HTTP") != scheme)
+                {
+                    problems.Add($"{http.At("scheme")?.Where ?? http.Where}: {probeName} asks with scheme {http.Text("scheme") ?? "HTTP"}, but the admin listener speaks {scheme} (it serves the gRPC listener's TLS)");
+                }
+
+                var askedPath = http.Text("path") ?? "/";
+                findings.ProbeServices.Add((http.At("path")?.Where ?? http.Where, askedPath));
+                if (askedPath != path)
+                {
+                    problems.Add($"{http.At("path")?.Where ?? http.Where}: {probeName} asks {askedPath}; the admin listener answers {path} for {(service.Length == 0 ? "liveness" : "readiness")}");
+                }
+
+                continue;
+            }
+
             if (probe["grpc"] is not { } grpc)
             {
-                problems.Add($"{probe.Where}: {probeName} should be a native gRPC probe (grpc: {{port, service}}); the servers serve grpc.health.v1");
+                problems.Add($"{probe.Where}: {probeName} should be a native gRPC probe (grpc: {{port, service}}) or, with TLS, an httpGet of the admin listener");
+                continue;
+            }
+
+            if (invocation["--tls-cert"] is not null)
+            {
+                problems.Add($"{grpc.Where}: {probeName} is a native gRPC probe, which cannot speak TLS, but fiber listens with --tls-cert ({invocation.WhereOf("--tls-cert")}): probe the admin listener's {(service.Length == 0 ? "/healthz" : "/readyz")} with httpGet");
                 continue;
             }
 

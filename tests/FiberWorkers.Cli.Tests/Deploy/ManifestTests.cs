@@ -48,14 +48,24 @@ public sealed class ManifestTests
         Assert.NotEmpty(findings.ProbeServices);
         using var log = new Serilog.LoggerConfiguration().CreateLogger();
         await using var host = await GrpcHost.StartAsync(
-            new HostSettings { Listen = new ListenAddress(IPAddress.Loopback, 0), Logger = log, Ready = () => true },
+            new HostSettings { Listen = new ListenAddress(IPAddress.Loopback, 0), Logger = log, Ready = () => true, AdminListen = new ListenAddress(IPAddress.Loopback, 0) },
             _ => { },
             _ => { });
         using var channel = GrpcChannel.ForAddress(host.Address);
         var health = new Health.HealthClient(channel);
 
+        // Probes of a TLS listener ask the admin listener's paths instead: each answers 200, an unknown path 404.
+        using var http = new HttpClient { BaseAddress = host.AdminAddress };
+        foreach (var (where, path) in findings.ProbeServices.Where(p => p.Service.StartsWith('/')).DistinctBy(p => p.Service))
+        {
+            var answer = await http.GetAsync(new Uri(path, UriKind.Relative));
+            Assert.True(answer.StatusCode == HttpStatusCode.OK, $"{where}: the admin listener answers {path} with {answer.StatusCode}");
+        }
+
+        Assert.Equal(HttpStatusCode.NotFound, (await http.GetAsync(new Uri("/not-a-probe", UriKind.Relative))).StatusCode);
+
         // Act and assert: every probed service is SERVING; a name the server does not know is NotFound, so the check can fail.
-        foreach (var (where, service) in findings.ProbeServices.DistinctBy(p => p.Service))
+        foreach (var (where, service) in findings.ProbeServices.Where(p => !p.Service.StartsWith('/')).DistinctBy(p => p.Service))
         {
             var reply = await health.CheckAsync(new HealthCheckRequest { Service = service });
             Assert.True(reply.Status == HealthCheckResponse.Types.ServingStatus.Serving, $"{where}: health service '{service}' answers {reply.Status}");
@@ -75,9 +85,14 @@ public sealed class ManifestTests
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- --shard-cache", "- --shard-cach", "deploy/kubernetes/base/worker.yaml", "--shard-cach is not an option of 'fiber serve worker'" },
         { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "- --threads\n            - \"2\"", "- --threads\n            - \"0\"", "deploy/kubernetes/base/coordinator.yaml", "--threads 0 is outside [1, 4096]" },
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- name: POD_IP", "- name: POD_ADDRESS", "deploy/kubernetes/base/worker.yaml", "$(POD_IP) is not defined in the container's env" },
-        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "service: ready", "service: readiness", "deploy/kubernetes/base/worker.yaml", "asks health service 'readiness'" },
-        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "port: 7401\n              service: \"\"", "port: 7400\n              service: \"\"", "deploy/kubernetes/base/worker.yaml", "livenessProbe asks port 7400, but fiber listens on 7401" },
-        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "http://fiber-coordinator:7400", "http://fiber-coordinator:7500", "deploy/kubernetes/base/worker.yaml", "has no port 7500" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "port: 9401\n              path: /healthz", "port: 9400\n              path: /healthz", "deploy/kubernetes/base/worker.yaml", "livenessProbe asks port 9400, but the admin listener (--admin-listen) is 0.0.0.0:9401" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "path: /readyz", "path: /healthz", "deploy/kubernetes/base/worker.yaml", "readinessProbe asks /healthz; the admin listener answers /readyz for readiness" },
+        { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "httpGet:\n              port: 9400\n              path: /readyz", "grpc:\n              port: 7400\n              service: ready", "deploy/kubernetes/base/coordinator.yaml", "readinessProbe is a native gRPC probe, which cannot speak TLS" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- https://fiber-coordinator:7400", "- http://fiber-coordinator:7400", "deploy/kubernetes/base/worker.yaml", "--coordinator http://fiber-coordinator:7400 is plain http" },
+        { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "- --tokens\n            - /etc/fiber/tokens/tokens.json\n            ", "", "deploy/kubernetes/base/coordinator.yaml", "'fiber serve coordinator' listens on 0.0.0.0:7400 without tokens" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "- --tls-cert\n            - /etc/fiber/tls/tls.crt\n            - --tls-key\n            - /etc/fiber/tls/tls.key\n            ", "", "deploy/kubernetes/base/worker.yaml", "'fiber serve worker' listens on 0.0.0.0:7401 without TLS" },
+        { "kubernetes", "deploy/kubernetes/jobs/sweep-microgrid4.yaml", "- --token-file\n            - /etc/fiber/client/client.token\n            ", "", "deploy/kubernetes/jobs/sweep-microgrid4.yaml", "'fiber sweep' calls https://fiber-coordinator:7400/ without a token" },
+        { "kubernetes", "deploy/kubernetes/base/worker.yaml", "https://fiber-coordinator:7400", "https://fiber-coordinator:7500", "deploy/kubernetes/base/worker.yaml", "has no port 7500" },
         { "kubernetes", "deploy/kubernetes/base/worker.yaml", "cpu: \"4\"\n              memory: 4Gi\n            limits:\n              cpu: \"4\"", "cpu: \"4\"\n              memory: 4Gi\n            limits:\n              cpu: \"8\"", "deploy/kubernetes/base/worker.yaml", "should equal the cpu limit 8" },
         { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "mountPath: /var/lib/fiber", "mountPath: /var/lib/other", "deploy/kubernetes/base/coordinator.yaml", "is not on a persistent volume" },
         { "kubernetes", "deploy/kubernetes/base/coordinator.yaml", "terminationGracePeriodSeconds: 30", "terminationGracePeriodSeconds: 10", "deploy/kubernetes/base/coordinator.yaml", "terminationGracePeriodSeconds 10 should exceed" },
@@ -97,6 +112,11 @@ public sealed class ManifestTests
         { "image", "deploy/docker/Dockerfile", "COPY src/FiberWorkers.Solving/FiberWorkers.Solving.csproj src/FiberWorkers.Solving/\n", string.Empty, "deploy/docker/Dockerfile", "does not COPY src/FiberWorkers.Solving/FiberWorkers.Solving.csproj" },
         { "image", "deploy/docker/Dockerfile", "EXPOSE 7400 7401", "EXPOSE 7400", "deploy/kubernetes/base/worker.yaml", "containerPort 7401 is not EXPOSEd" },
         { "image", "deploy/docker/Dockerfile", "USER $APP_UID", "USER root", "deploy/docker/Dockerfile", "non-root USER" },
+        { "systemd", "deploy/systemd/fiber-coordinator.service", "    --tokens %d/tokens.json \\\n", "", "deploy/systemd/fiber-coordinator.service", "'fiber serve coordinator' listens on 0.0.0.0:7400 without tokens" },
+        { "systemd", "deploy/systemd/fiber.env.example", "FIBER_COORDINATOR_URL=https://", "FIBER_COORDINATOR_URL=http://", "deploy/systemd/fiber-worker@.service", "--coordinator http://coordinator.example.internal:7400 is plain http" },
+        { "slurm", "deploy/slurm/fiber-cluster.sbatch", "--advertise \"https://", "--advertise \"http://", "deploy/slurm/fiber-cluster.sbatch", "is plain http; the servers speak https" },
+        { "slurm", "deploy/slurm/fiber-cluster.sbatch", "--token-file \"${FIBER_TLS}/client.token\" \\\n        --tiles", "--tiles", "deploy/slurm/fiber-cluster.sbatch", "'fiber sweep' calls https://" },
+        { "readmes", "deploy/README.md", "--worker-token-file tls/worker.token\n", "--worker-token-file tls/worker.token --plaintext\n", "deploy/README.md", "--plaintext: a deployed server runs with TLS and tokens" },
         { "readmes", "deploy/README.md", "--tiles 4x4x4", "--tile 4x4x4", "deploy/README.md", "--tile is not an option of 'fiber sweep'" },
         { "readmes", "deploy/README.md", "deploy/kubernetes/postgres", "deploy/kubernetes/postgresql", "deploy/README.md", "deploy/kubernetes/postgresql does not exist" },
         { "coverage", "deploy/helm/values.yaml", string.Empty, "replicas: 3\n", "deploy/helm/values.yaml", "no deploy check reads this kind of file" },

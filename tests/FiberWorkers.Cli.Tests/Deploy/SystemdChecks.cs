@@ -280,6 +280,7 @@ internal static partial class SystemdChecks
                 'H' or 'l' => "host1",
                 'n' => unit.Replace("@.", $"@{InstanceSample}.", StringComparison.Ordinal),
                 'p' or 'P' => unit[..unit.IndexOfAny(['@', '.'])],
+                'd' => $"/run/credentials/{unit}",
                 _ => null,
             } ?? Unknown(specifier, where, problems));
         }

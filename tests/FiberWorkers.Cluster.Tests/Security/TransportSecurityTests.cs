@@ -99,6 +99,27 @@ public sealed class TransportSecurityTests
     }
 
     [Fact]
+    public async Task The_admin_listener_serves_tls_without_asking_probes_for_a_client_certificate()
+    {
+        using var kit = CertificateKit.Create(["localhost", "127.0.0.1"], 1);
+        var roots = new X509Certificate2Collection(kit.Authority);
+        using var log = new Serilog.LoggerConfiguration().CreateLogger();
+        var loopback = new ListenAddress(System.Net.IPAddress.Loopback, 0);
+        await using var host = await GrpcHost.StartAsync(
+            new HostSettings { Listen = loopback, AdminListen = loopback, Logger = log, Security = new ServerSecurity { Tls = ServerTls.FromCertificates(kit.Server, roots) } },
+            _ => { },
+            _ => { });
+        Assert.Equal("https", host.AdminAddress!.Scheme);
+        using var handler = new HttpClientHandler { ServerCertificateCustomValidationCallback = (_, certificate, _, _) => certificate is not null && CertificateFiles.Chains(certificate, roots, CertificateFiles.ServerAuthentication) };
+        using var http = new HttpClient(handler) { BaseAddress = host.AdminAddress };
+        Assert.Equal(System.Net.HttpStatusCode.OK, (await http.GetAsync(new Uri("/healthz", UriKind.Relative))).StatusCode);
+
+        // The gRPC listener of the same host still wants the client certificate.
+        using var channel = ChannelSecurity.Open(host.Address, new ClientSecurity(roots), 1 << 20);
+        await AssertTransportRefused(async () => await new Grpc.Health.V1.Health.HealthClient(channel).CheckAsync(new Grpc.Health.V1.HealthCheckRequest()));
+    }
+
+    [Fact]
     public async Task A_client_refuses_a_server_whose_certificate_is_not_from_its_ca()
     {
         await using var cluster = await SecureCluster.StartAsync(tls: true);

@@ -32,7 +32,7 @@ internal sealed class ServerProcess : IDisposable
     public static ServerProcess Coordinator(string store, int port = 0, IReadOnlyDictionary<string, string>? environment = null, params string[] extra)
     {
         var server = new ServerProcess(
-            FiberProcess.Start(environment, ["serve", "coordinator", "--listen", $"127.0.0.1:{port}", "--store", store, "--log-format", "json", .. extra]),
+            FiberProcess.Start(environment, ["serve", "coordinator", "--listen", $"127.0.0.1:{port}", "--plaintext", "--store", store, "--log-format", "json", .. extra]),
             "coordinator");
         server.WaitForAddress("coordinator listening on");
         return server;
@@ -42,7 +42,7 @@ internal sealed class ServerProcess : IDisposable
     {
         var environment = fault is null ? null : new Dictionary<string, string> { ["FIBER_WORKER_FAULT"] = fault };
         var server = new ServerProcess(
-            FiberProcess.Start(environment, ["serve", "worker", "--listen", "127.0.0.1:0", "--coordinator", coordinator.ToString().TrimEnd('/'), "--threads", $"{threads}", "--id", id, "--log-format", "json", .. extra]),
+            FiberProcess.Start(environment, ["serve", "worker", "--listen", "127.0.0.1:0", "--plaintext", "--coordinator", coordinator.ToString().TrimEnd('/'), "--threads", $"{threads}", "--id", id, "--log-format", "json", .. extra]),
             "worker") { WorkerId = id };
         server.WaitForAddress("listening on");
         return server;
