@@ -82,6 +82,11 @@ internal static class ServeCommand
             CheckAdmin(options.AdminListen, options.Security);
             using var log = ServiceLogging.Create(parse.GetValue(format)!, "coordinator");
             using var ledger = LedgerStores.Open(parse.GetValue(store)!);
+
+            // Store calls (merges, version lists) block pool threads for a moment; with the pool at its minimum (one
+            // thread per core) every call behind them, refusals included, would wait for the pool to grow (~0.5 s).
+            ThreadPool.GetMinThreads(out var poolThreads, out var ioThreads);
+            ThreadPool.SetMinThreads(Math.Max(poolThreads, 32), ioThreads);
             var server = await Start(() => CoordinatorServer.StartAsync(ledger, options, address, log, cancellation), address, error).ConfigureAwait(false);
             await using (server.ConfigureAwait(false))
             {

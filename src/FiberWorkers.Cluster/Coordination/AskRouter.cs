@@ -42,10 +42,21 @@ public sealed class AskRouter
         RequestChecks.Id(request.AtlasId, "atlas_id");
         RequestChecks.Id(request.RequestId, "request_id", required: false);
         RequestChecks.Version(request.Version, "version");
+
+        // Overload is refused before any store read, routing or hashing: when every live worker's queue is full, none
+        // could take the ask, and the refusal must not wait behind work it is there to shed.
+        var live = _pool.Live();
+        if (live.Count > 0 && live.All(w => w.AsksInFlight >= _options.AskQueuePerWorker))
+        {
+            throw new RpcException(new Status(
+                StatusCode.ResourceExhausted,
+                $"every live worker already has {_options.AskQueuePerWorker} asks waiting (the per-worker queue limit); retry later"));
+        }
+
         var view = _catalog.View(request.AtlasId, request.Version);
         var point = RequestChecks.Point(request.Point, view.Family.Parameters.Count, "point");
         var tile = TileKey.Containing(point, view.Family.Parameters, view.Divisions).ToString();
-        var order = Rendezvous.Order(tile, _pool.Live(), w => w.Id);
+        var order = Rendezvous.Order(tile, live, w => w.Id);
         if (order.Count == 0)
         {
             throw new RpcException(new Status(StatusCode.Unavailable, "no live workers: start one with 'fiber serve worker --coordinator ...'"));

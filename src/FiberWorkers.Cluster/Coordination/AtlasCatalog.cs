@@ -73,6 +73,7 @@ public sealed class AtlasCatalog
     private readonly ConcurrentDictionary<string, FamilyDefinition> _families = new(StringComparer.Ordinal);
     private readonly ConcurrentDictionary<(string Atlas, int Version), Lazy<byte[]>> _starts = new();
     private readonly ConcurrentDictionary<string, (int Version, DateTimeOffset Read)> _latest = new(StringComparer.Ordinal);
+    private readonly ConcurrentDictionary<string, byte> _refreshing = new(StringComparer.Ordinal);
 
     public AtlasCatalog(ISweepLedger store)
     {
@@ -248,20 +249,38 @@ public sealed class AtlasCatalog
 
     private int Latest(string atlasId)
     {
-        if (_latest.TryGetValue(atlasId, out var cached) && DateTimeOffset.UtcNow - cached.Read < LatestCache)
+        var known = _latest.TryGetValue(atlasId, out var cached);
+        if (known && DateTimeOffset.UtcNow - cached.Read < LatestCache)
         {
             return cached.Version;
         }
 
-        _ = Family(atlasId);
-        var versions = _store.Versions(atlasId);
-        if (versions.Count == 0)
+        // When the cached answer expires one caller reads the store and the others keep the answer meanwhile: a burst
+        // of asks must not queue on the store (behind a sweep's writes) all at once. After a commit nothing is cached.
+        if (known && !_refreshing.TryAdd(atlasId, 0))
         {
-            throw new RpcException(new Status(StatusCode.NotFound, $"atlas_id: atlas '{atlasId}' has no committed version yet"));
+            return cached.Version;
         }
 
-        _latest[atlasId] = (versions[^1].Version, DateTimeOffset.UtcNow);
-        return versions[^1].Version;
+        try
+        {
+            _ = Family(atlasId);
+            var versions = _store.Versions(atlasId);
+            if (versions.Count == 0)
+            {
+                throw new RpcException(new Status(StatusCode.NotFound, $"atlas_id: atlas '{atlasId}' has no committed version yet"));
+            }
+
+            _latest[atlasId] = (versions[^1].Version, DateTimeOffset.UtcNow);
+            return versions[^1].Version;
+        }
+        finally
+        {
+            if (known)
+            {
+                _refreshing.TryRemove(atlasId, out _);
+            }
+        }
     }
 
     private AtlasView Load(string atlasId, int version)

@@ -26,6 +26,12 @@ internal sealed class ServerProcess : IDisposable
 
     public bool HasExited => _process.HasExited;
 
+    /// <summary>The child's process id (for reading /proc/PID).</summary>
+    public int ProcessId => _process.Id;
+
+    /// <summary>The exit code once exited, else null.</summary>
+    public int? ExitCodeOrNull => _process.HasExited ? _process.ExitCode : null;
+
     /// <summary>The worker id (workers only).</summary>
     public string? WorkerId { get; private set; }
 
