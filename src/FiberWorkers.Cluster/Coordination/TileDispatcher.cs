@@ -147,7 +147,9 @@ public sealed class TileDispatcher
                     }
                     catch (Exception e) when (!token.IsCancellationRequested)
                     {
-                        var returned = e is RpcException rpc && StoppingRefusal.Is(rpc) && !link.IsLost;
+                        // A stopping worker's refusal, or any end of a call to a worker that said it stops (its last
+                        // answer may race its final deregistration): the tile comes back, nothing failed.
+                        var returned = (e is RpcException rpc && StoppingRefusal.Is(rpc)) || link.IsDraining;
                         var kind = returned ? "returned" : link.IsLost ? "lost" : e is TimeoutRejectedException ? "timeout"
                             : e is RpcException { StatusCode: StatusCode.ResourceExhausted } ? "busy" : "failed";
                         var detail = Describe(e, link);
@@ -203,6 +205,8 @@ public sealed class TileDispatcher
 
     private static string Describe(Exception e, WorkerLink link) => e switch
     {
+        RpcException refusal when StoppingRefusal.Is(refusal) => $"{refusal.StatusCode}: {refusal.Status.Detail}",
+        _ when link.IsDraining => "the worker stopped (it had deregistered) before answering",
         _ when link.IsLost => "the worker was lost (no heartbeat or it stopped)",
         TimeoutRejectedException => "no answer before the tile deadline",
         BrokenCircuitException => "the worker's circuit is open",

@@ -298,12 +298,19 @@ public sealed class WorkerPool : IDisposable
             return false;
         }
 
-        if (final)
+        if (final && link.TilesInFlight == 0 && link.AsksInFlight == 0)
         {
             if (Remove(id))
             {
                 _log.Information("worker {WorkerId} at {WorkerAddress} stopped and deregistered", id, link.Address);
             }
+        }
+        else if (final)
+        {
+            // Its last answers may still be on their way here: cancelling them now would turn a returned tile into a
+            // lost one. The link stays draining and goes with its heartbeats.
+            link.MarkDraining();
+            _log.Information("worker {WorkerId} at {WorkerAddress} stopped; {TilesInFlight} calls to it still end here first", id, link.Address, link.TilesInFlight + link.AsksInFlight);
         }
         else
         {
