@@ -60,7 +60,7 @@ public sealed class GrpcHost : IAsyncDisposable
     /// <summary>The bound address, e.g. http://127.0.0.1:41234 (port 0 resolved).</summary>
     public Uri Address { get; }
 
-    /// <summary>The admin listener's bound address (http://HOST:PORT), or null without one.</summary>
+    /// <summary>The admin listener's bound address (http://HOST:PORT, https:// with TLS), or null without one.</summary>
     public Uri? AdminAddress { get; }
 
     /// <summary>The host's services (the service objects registered by the caller).</summary>
