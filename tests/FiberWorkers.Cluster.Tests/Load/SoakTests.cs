@@ -205,11 +205,21 @@ public sealed class SoakTests(ITestOutputHelper output)
         Assert.Equal(36, outcome.Tiles);
         Assert.Equal(aloneHash, outcome.ContentHash);
 
-        foreach (var server in servers)
+        // Workers first, then the coordinator (the order of a planned shutdown): each exits 0 on SIGTERM.
+        var exits = new List<string>();
+        foreach (var server in new[] { worker1, worker2, coordinator })
         {
-            Assert.Equal(0, server.Stop(TimeSpan.FromSeconds(30)));
+            var code = server.Stop(TimeSpan.FromSeconds(30));
+            if (code != 0)
+            {
+                exits.Add($"{server.Role} {server.WorkerId} exited with {code} after SIGTERM; log tail:{Environment.NewLine}{Tail(server.Log)}");
+            }
         }
+
+        Assert.True(exits.Count == 0, string.Join(Environment.NewLine, exits));
     }
+
+    private static string Tail(string log) => string.Join(Environment.NewLine, log.Split('\n', StringSplitOptions.RemoveEmptyEntries).TakeLast(15));
 
     private static SubmitSweepRequest SecondRequest() => new()
     {
