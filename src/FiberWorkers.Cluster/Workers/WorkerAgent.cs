@@ -69,7 +69,18 @@ public sealed class WorkerAgent
                     }
                 }
             }
-            catch (RpcException e) when (!cancellation.IsCancellationRequested && !_runtime.IsStopping)
+            catch (RpcException) when (cancellation.IsCancellationRequested)
+            {
+                // A call in flight when the worker stopped ends as Cancelled: that is the end of the loop, not an error.
+                return;
+            }
+            catch (RpcException e) when (_runtime.IsStopping)
+            {
+                // Stopping: no more registering; the coordinator learns the rest from DeregisterWorker or silence.
+                _log.Information("worker {WorkerId} stopped heartbeating while stopping ({Status})", _runtime.Id, e.StatusCode);
+                return;
+            }
+            catch (RpcException e)
             {
                 _registered = false;
                 if (!warned)

@@ -1,5 +1,6 @@
 using FiberWorkers.Cluster.Hosting;
 using FiberWorkers.Contracts.V1;
+using Grpc.Core;
 using Grpc.Net.Client;
 using Microsoft.AspNetCore.Builder;
 using Microsoft.Extensions.DependencyInjection;
@@ -113,6 +114,10 @@ public sealed class WorkerServer : IAsyncDisposable
         catch (OperationCanceledException)
         {
             // Stopped on purpose.
+        }
+        catch (RpcException e) when (e.StatusCode == StatusCode.Cancelled)
+        {
+            // A heartbeat in flight when the stop came: cancelled on purpose too.
         }
 
         // Every call has ended: the coordinator may forget this worker now rather than after its missed heartbeats.
