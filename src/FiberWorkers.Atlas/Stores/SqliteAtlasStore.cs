@@ -668,6 +668,9 @@ public sealed class SqliteAtlasStore : ISweepLedger
         if (!schema.SequenceEqual(expected))
         {
             var first = schema.Except(expected).Concat(expected.Except(schema)).FirstOrDefault() ?? "(order)";
+
+            // The schema's SQL text may span lines; the message stays on one.
+            first = string.Join(' ', first.Split((char[])['\n', '\r', '\t'], StringSplitOptions.RemoveEmptyEntries | StringSplitOptions.TrimEntries));
             throw new InputException(_source, string.Empty, $"the atlas file is damaged (its schema differs from schema version {SchemaVersion} at: {first})");
         }
     }

@@ -123,6 +123,23 @@ public sealed class CorruptFileTests(ITestOutputHelper output)
         Assert.True(refused > flips.Count / 10, $"only {refused} of {flips.Count} flips were detected: the cases miss the data");
     }
 
+    [Fact]
+    public void A_damaged_column_type_in_a_schema_text_of_several_lines_is_refused_on_one_line()
+    {
+        // Found by the seeded flips: the CREATE TABLE text of sweep_tiles spans two lines, and the schema check
+        // quoted it as it stood. Flip 'TEXT' to 'TUXT' in that statement.
+        var reference = Reference.Value;
+        var text = System.Text.Encoding.ASCII.GetBytes("tile_key TEXT NOT NULL, tile_hash");
+        var at = reference.Bytes.AsSpan().IndexOf(text);
+        Assert.True(at >= 0, "the schema text of sweep_tiles was not found in the file");
+        var damaged = (byte[])reference.Bytes.Clone();
+        damaged[at + "tile_key T".Length] = (byte)'U';
+
+        var failures = Judge(reference, damaged, "column type TEXT damaged to TUXT in sweep_tiles", mustRefuse: true).ToList();
+
+        Assert.True(failures.Count == 0, string.Join(Environment.NewLine, failures));
+    }
+
     /// <summary>
     /// Opens a damaged copy the way the CLI does and asks it; returns what went wrong: nothing when it failed with an
     /// input error naming the file, or (unless <paramref name="mustRefuse"/>) when every answer equals the intact one.
