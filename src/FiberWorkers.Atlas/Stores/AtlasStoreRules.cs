@@ -21,6 +21,25 @@ public static class AtlasStoreRules
         return Convert.ToHexStringLower(SHA256.HashData(payload));
     }
 
+    /// <summary>The argument checks every store's CommitDerived makes before it touches the database.</summary>
+    public static void CheckDerived(
+        string atlasId,
+        string kind,
+        string optionsText,
+        IReadOnlyList<(string TileKey, string TileHash, byte[] Payload)> addedTiles,
+        Delegate describe)
+    {
+        ArgumentNullException.ThrowIfNull(atlasId);
+        ArgumentNullException.ThrowIfNull(kind);
+        ArgumentNullException.ThrowIfNull(optionsText);
+        ArgumentNullException.ThrowIfNull(addedTiles);
+        ArgumentNullException.ThrowIfNull(describe);
+        foreach (var (key, hash, payload) in addedTiles)
+        {
+            CheckTile(key, hash, payload);
+        }
+    }
+
     /// <summary>
     /// Refuses a tile whose hash is not the hash of its payload: tiles are stored once per hash and the first writer
     /// wins, so one wrong pair written would shadow the right payload for good.

@@ -110,7 +110,7 @@ public static class TileComputer
         Convert.ToHexStringLower(System.Security.Cryptography.SHA256.HashData(System.Text.Encoding.UTF8.GetBytes(options.CanonicalText)))[..32];
 
     /// <summary>The s-range of origin + s·direction inside [low, high] (the origin lies inside).</summary>
-    private static (double Min, double Max) Clip(double[] origin, double[] direction, double[] low, double[] high)
+    internal static (double Min, double Max) Clip(double[] origin, double[] direction, double[] low, double[] high)
     {
         var sMin = double.NegativeInfinity;
         var sMax = double.PositiveInfinity;

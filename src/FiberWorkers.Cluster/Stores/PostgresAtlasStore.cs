@@ -301,15 +301,7 @@ internal sealed class PostgresAtlasStore : ISweepLedger
         (string KeyPattern, byte[] Payload)? blob,
         Func<IReadOnlyDictionary<string, string>, (string ContentHash, string Summary)> describe)
     {
-        ArgumentNullException.ThrowIfNull(atlasId);
-        ArgumentNullException.ThrowIfNull(kind);
-        ArgumentNullException.ThrowIfNull(optionsText);
-        ArgumentNullException.ThrowIfNull(addedTiles);
-        ArgumentNullException.ThrowIfNull(describe);
-        foreach (var (key, hash, payload) in addedTiles)
-        {
-            AtlasStoreRules.CheckTile(key, hash, payload);
-        }
+        AtlasStoreRules.CheckDerived(atlasId, kind, optionsText, addedTiles, describe);
 
         using var connection = _data.OpenConnection();
         if (VersionLink(connection, null, atlasId, parent) is null)

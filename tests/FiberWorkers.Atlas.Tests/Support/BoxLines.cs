@@ -1,3 +1,4 @@
+using FiberWorkers.Atlas.Sweeps;
 using FiberWorkers.Algebra.Families;
 using FiberWorkers.Contracts.V1;
 
@@ -49,24 +50,7 @@ internal static class BoxLines
         return lines;
     }
 
-    /// <summary>The s-range of origin + s·direction inside [low, high] (the origin lies inside).</summary>
-    public static (double Min, double Max) Clip(double[] origin, double[] direction, double[] low, double[] high)
-    {
-        var sMin = double.NegativeInfinity;
-        var sMax = double.PositiveInfinity;
-        for (var k = 0; k < origin.Length; k++)
-        {
-            if (direction[k] == 0)
-            {
-                continue;
-            }
-
-            var a = (low[k] - origin[k]) / direction[k];
-            var b = (high[k] - origin[k]) / direction[k];
-            sMin = Math.Max(sMin, Math.Min(a, b));
-            sMax = Math.Min(sMax, Math.Max(a, b));
-        }
-
-        return (sMin, sMax);
-    }
+    /// <summary>The s-range of origin + s·direction inside [low, high]: the sweep's own clipping.</summary>
+    public static (double Min, double Max) Clip(double[] origin, double[] direction, double[] low, double[] high) =>
+        TileComputer.Clip(origin, direction, low, high);
 }
