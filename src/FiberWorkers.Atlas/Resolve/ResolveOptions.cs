@@ -16,14 +16,22 @@ public sealed record ResolveOptions
     public double CrossingReach { get; init; } = 0.02;
 
     /// <summary>
-    /// The fast path needs this many nearest samples to agree on the count: a query where the atlas's labels are
-    /// mixed lies near the locus, where real-only tracking is blind to pairs turning real. Default 8.
+    /// Nearest samples looked at around a query: the highest count among them is tried first, and a neighbour with
+    /// the count that survives a fold answers from the other side. Default 8.
     /// </summary>
-    public int Unanimity { get; init; } = 8;
+    public int Neighbourhood { get; init; } = 8;
 
     /// <summary>
-    /// The query may be at most this fraction of the start sample's distance to its nearest stored crossing away
-    /// from it. Default 0.5.
+    /// Accept a count below the neighbourhood's highest when a start sample with the highest count lost pairs of
+    /// solutions to a fold on its segment and a neighbour with the lower count reaches the same solutions from its
+    /// own side. Default true; false answers such queries by a full solve.
+    /// </summary>
+    public bool TwoSided { get; init; }
+
+    /// <summary>
+    /// A count is carried from a start sample only to queries at most this fraction of the sample's distance to its
+    /// nearest stored crossing away: farther, a part of the locus the atlas has not sampled may lie in between.
+    /// Default 0.5.
     /// </summary>
     public double CrossingMargin { get; init; } = 0.5;
 

@@ -11,14 +11,18 @@ using FiberWorkers.Solving.StartFibers;
 namespace FiberWorkers.Atlas.Resolve;
 
 /// <summary>
-/// Answers point queries from an atlas by tracking only the real solutions of the nearest solved sample p* along the
-/// real segment p* → p, then certifying each endpoint (approximate zero, distinct, real). The answer is accepted only
-/// when every path ends regular and certified real, the count equals the classifier's label at p and the label of p*,
-/// the nearest samples around p agree on that count, p is nearer to p* than half of p*'s distance to its nearest
-/// stored crossing, and no stored crossing of the locus lies between p* and p. Otherwise the next nearest samples are
-/// tried, then the parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair of
-/// complex solutions turning real between p* and p (real-only tracking never carries them); the label, unanimity and
-/// crossing checks guard against it only as far as the atlas has sampled that part of the locus.
+/// Answers point queries from an atlas by tracking only real solutions from nearby solved samples along the real
+/// segment to the query, then certifying each endpoint (approximate zero, distinct, real). Certified distinct real
+/// endpoints bound the query's count from below, so the start samples are the nearest ones holding the highest count
+/// among the query's neighbourhood and the classifier's label: from a sample in the query's own region every path
+/// arrives; from one across a fold a pair of paths meets there and fails. An answer is accepted when every path ends
+/// regular and certified real and no stored crossing's tangent plane separates the sample from the query near the
+/// segment; where the whole neighbourhood agrees, the query must also lie within a margin of the sample's distance to
+/// the nearest stored crossing. A count above the classifier's label is accepted this way (the certified solutions
+/// prove the label low). Otherwise a few more samples are tried, then the parameter homotopy from the start fiber
+/// solves in full. What the fast path cannot see: a pair of complex solutions turning real between a start sample
+/// and the query (real-only tracking never carries them); the neighbourhood, crossing and margin checks guard
+/// against it only as far as the atlas has sampled that part of the locus.
 /// </summary>
 public sealed class Resolver
 {
@@ -58,11 +62,12 @@ public sealed class Resolver
     }
 
     /// <summary>
-    /// Queries track over short distances (the nearest sample is close): a first step of half the segment and no cap
-    /// on the step let most paths finish in one or two steps; the corrector's contraction bound still guards each step.
+    /// Queries track over short distances (the nearest sample is close): a first step over the whole segment and no cap
+    /// on the step let most paths finish in one step; the corrector's contraction bound still guards each step. A path
+    /// that needs steps below 1e-6 of the segment, or more than 100 of them, is running into a fold and fails early.
     /// </summary>
     private static readonly Solving.Tracking.TrackerOptions ShortSegment =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 0.5, MaxStepSize = 1.0 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-6, MaxSteps = 100 };
 
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
@@ -94,85 +99,181 @@ public sealed class Resolver
             return Full(target, predicted, outside: true, [], 0);
         }
 
-        var neighbourhood = Math.Clamp(Math.Max(_options.Attempts, _options.Unanimity), 1, 64);
+        var neighbourhood = Math.Clamp(Math.Max(_options.Attempts, _options.Neighbourhood), 1, 64);
         Span<int> candidates = stackalloc int[neighbourhood];
         Span<double> distances = stackalloc double[neighbourhood];
         var found = _nearest.Nearest(normalized, candidates, distances);
         var rejections = new List<string>();
         var paths = 0;
-        var agreeing = Math.Min(found, _options.Unanimity);
-        for (var i = 0; i < agreeing; i++)
+
+        // Stage 1: the most real solutions around p. Certified distinct real endpoints are a lower bound on p's count,
+        // so the highest count among the neighbours (and the classifier's) is tried first: a start sample in p's own
+        // region then reaches the true count, and one across a fold loses a pair there and fails instead.
+        var most = predicted;
+        var fewest = predicted;
+        for (var i = 0; i < found; i++)
         {
-            if (_samples.Labels[candidates[i]] != predicted)
-            {
-                rejections.Add(string.Create(
-                    CultureInfo.InvariantCulture,
-                    $"the {agreeing} nearest samples do not agree on {predicted} real solutions (one has {_samples.Labels[candidates[i]]}): the point is near the locus"));
-                return Full(target, predicted, outside: false, rejections, 0);
-            }
+            most = Math.Max(most, _samples.Labels[candidates[i]]);
+            fewest = Math.Min(fewest, _samples.Labels[candidates[i]]);
         }
 
-        for (var attempt = 0; attempt < Math.Min(found, _options.Attempts); attempt++)
+        // Around a mixed neighbourhood the atlas has sampled the locus, and the stored crossings between a start sample
+        // and p are checked; where every neighbour agrees, p may still lie across a part of the locus the atlas never
+        // met, so the count is carried only over a short distance compared with the known locus.
+        var unanimous = most == fewest;
+
+        // Stage 2, tried as soon as a fold shows: p on the side with fewer real solutions. A start sample with the
+        // most solutions lost an even number of them to a fold on its segment while the others arrived certified; a
+        // neighbour holding exactly the survivors' count must reach p from its own side with the same solutions. Two
+        // tracks from opposite sides of the fold then agree on the count and on every solution.
+        var tries = 0;
+        var otherSideTried = false;
+        for (var i = 0; i < found && tries < _options.Attempts; i++)
         {
-            var index = candidates[attempt];
-            var sample = _samples.Samples[index];
-            var name = SampleName(index);
-            if (sample.Label != predicted)
+            var index = candidates[i];
+            if (_samples.Labels[index] != most)
             {
-                rejections.Add($"{name}: its {sample.Label} real solutions differ from the predicted label {predicted}");
                 continue;
             }
 
-            var start = _samples.Points.AsSpan(index * dimension, dimension);
-            var clearance = NearestCrossingDistance(start);
-            if (Math.Sqrt(distances[attempt]) > _options.CrossingMargin * clearance)
+            tries++;
+            var outcome = Track(index, normalized, target, unanimous, rejections, ref paths);
+            if (outcome.Accepted)
             {
-                rejections.Add(string.Create(
-                    CultureInfo.InvariantCulture,
-                    $"{name}: the point is {Math.Sqrt(distances[attempt]):G3} away, more than {_options.CrossingMargin} of its distance {clearance:G3} to the nearest stored crossing"));
-                continue;
+                return Accept(outcome.Solutions, index, predicted, rejections, paths, target);
             }
 
-            if (CrossingBetween(start, normalized) is { } crossing)
+            if (outcome.Lost is { } survivors)
             {
-                rejections.Add($"{name}: a stored crossing lies between it and the point ({crossing})");
-                continue;
-            }
+                // A fold lies between that sample and p: the others with the most solutions would mostly cross it too.
+                if (!_options.TwoSided || otherSideTried)
+                {
+                    break;
+                }
 
-            var solutions = Solutions(sample);
-            paths += solutions.Count;
-            var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);
-            if (!tracked.AllRegular)
-            {
-                var failure = tracked.Paths.First(p => p.Status != PathStatus.Regular).Failure;
-                rejections.Add($"{name}: real-only tracking failed ({failure.Name()})");
-                continue;
+                otherSideTried = true;
+                if (OtherSide(survivors, candidates[..found], normalized, target, rejections, ref paths) is { } other)
+                {
+                    return Accept(other.Solutions, other.Index, predicted, rejections, paths, target);
+                }
             }
-
-            var certified = _solver.Certify(target, [.. tracked.Paths.Select((p, i) => (i, p.Endpoint!))]);
-            if (!certified.All(c => c.Certified && c.Certificate.Reality == Reality.Real))
-            {
-                rejections.Add($"{name}: an endpoint is not a certified, distinct, real solution");
-                continue;
-            }
-
-            var answer = new ResolveAnswer
-            {
-                Method = "real-track",
-                RealCount = certified.Count,
-                Certified = true,
-                AtlasVersion = _snapshot.Version.Version,
-                Solutions = certified,
-                PredictedLabel = predicted,
-                StartSample = name,
-                Rejections = rejections,
-                PathsTracked = paths,
-            };
-            return _options.VerifyFull ? Verify(answer, target) : answer;
         }
 
         return Full(target, predicted, outside: false, rejections, paths);
     }
+
+    /// <summary>
+    /// The nearest neighbour holding exactly the survivors' count, tracked to the query: its certified solutions when
+    /// they are the survivors', else null (with the reason among the rejections).
+    /// </summary>
+    private (int Index, IReadOnlyList<FiberPoint> Solutions)? OtherSide(
+        Survivors survivors, ReadOnlySpan<int> neighbours, ReadOnlySpan<double> normalized, Complex[] target, List<string> rejections, ref int paths)
+    {
+        var fewer = survivors.Solutions.Count;
+        foreach (var index in neighbours)
+        {
+            if (_samples.Labels[index] != fewer)
+            {
+                continue;
+            }
+
+            var outcome = Track(index, normalized, target, checkReach: false, rejections, ref paths);
+            if (!outcome.Accepted)
+            {
+                return null;
+            }
+
+            if (SameSolutions(outcome.Solutions, survivors.Solutions))
+            {
+                return (index, outcome.Solutions);
+            }
+
+            rejections.Add($"{SampleName(index)}: its {fewer} solutions differ from those that crossed the fold from {SampleName(survivors.Sample)}");
+            return null;
+        }
+
+        rejections.Add($"no neighbour holds the {fewer} solutions that survived the fold from {SampleName(survivors.Sample)}");
+        return null;
+    }
+
+    /// <summary>What tracking from one start sample gave: accepted solutions, or the certified survivors of a fold.</summary>
+    private readonly record struct Attempt(bool Accepted, IReadOnlyList<FiberPoint> Solutions, Survivors? Lost);
+
+    /// <summary>The certified endpoints of a start sample's paths when an even number of the others failed on the segment.</summary>
+    private sealed record Survivors(int Sample, IReadOnlyList<FiberPoint> Solutions);
+
+    /// <summary>
+    /// Tracks the real solutions of one start sample to the query and certifies the endpoints. Accepted when every path
+    /// ends regular, every endpoint is a certified, distinct, real solution and no stored crossing separates the sample
+    /// from the query. When an even number of paths fail and every other endpoint certifies, the survivors are
+    /// returned: the mark of a fold on the segment, where pairs of real solutions meet and leave the real plane (a
+    /// stored crossing across the segment is then expected, not a veto).
+    /// </summary>
+    private Attempt Track(int index, ReadOnlySpan<double> normalized, Complex[] target, bool checkReach, List<string> rejections, ref int paths)
+    {
+        var dimension = _samples.Dimension;
+        var sample = _samples.Samples[index];
+        var name = SampleName(index);
+        var start = _samples.Points.AsSpan(index * dimension, dimension);
+        var separated = CrossingBetween(start, normalized);
+        var reach = checkReach ? Reach(start, normalized) : null;
+        var solutions = Solutions(sample);
+        paths += solutions.Count;
+        var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);
+        var arrived = tracked.Paths.Where(p => p.Status == PathStatus.Regular).ToArray();
+        var certified = _solver.Certify(target, [.. arrived.Select(p => (p.Index, p.Endpoint!))]);
+        var allCertified = certified.All(c => c.Certified && c.Certificate.Reality == Reality.Real);
+        if (arrived.Length == tracked.Paths.Count)
+        {
+            if (allCertified && separated is null && reach is null)
+            {
+                return new Attempt(true, certified, null);
+            }
+
+            if (reach is not null)
+            {
+                rejections.Add($"{name}: {reach}");
+                return default;
+            }
+
+            if (separated is not null)
+            {
+                rejections.Add($"{name}: a stored crossing lies between it and the point ({separated})");
+                return default;
+            }
+
+            rejections.Add($"{name}: an endpoint is not a certified, distinct, real solution");
+            return default;
+        }
+
+        var failed = tracked.Paths.Count - arrived.Length;
+        var failure = tracked.Paths.First(p => p.Status != PathStatus.Regular).Failure;
+        rejections.Add(string.Create(CultureInfo.InvariantCulture, $"{name}: real-only tracking failed on {failed} of {tracked.Paths.Count} paths ({failure.Name()})"));
+        return failed % 2 == 0 && allCertified ? new Attempt(false, certified, new Survivors(index, certified)) : default;
+    }
+
+    private ResolveAnswer Accept(IReadOnlyList<FiberPoint> solutions, int index, int predicted, List<string> rejections, int paths, Complex[] target)
+    {
+        var answer = new ResolveAnswer
+        {
+            Method = "real-track",
+            RealCount = solutions.Count,
+            Certified = true,
+            AtlasVersion = _snapshot.Version.Version,
+            Solutions = solutions,
+            PredictedLabel = predicted,
+            StartSample = SampleName(index),
+            Rejections = rejections,
+            PathsTracked = paths,
+        };
+        return _options.VerifyFull ? Verify(answer, target) : answer;
+    }
+
+    /// <summary>True when both lists hold the same points (each of one within 1e-8, relative, of one of the other).</summary>
+    private static bool SameSolutions(IReadOnlyList<FiberPoint> a, IReadOnlyList<FiberPoint> b) =>
+        a.Count == b.Count
+        && a.All(x => b.Any(y => Distance(x.Values, y.Values) <= 1e-8 * (1 + Norm(x.Values))))
+        && b.All(y => a.Any(x => Distance(x.Values, y.Values) <= 1e-8 * (1 + Norm(y.Values))));
 
     /// <summary>The full solve: the parameter homotopy from the start fiber, all N paths, certified.</summary>
     public FiberSolution SolveFull(ReadOnlySpan<double> point) => _solver.Solve(_start, ToComplex(point));
@@ -253,9 +354,30 @@ public sealed class Resolver
         return null;
     }
 
-    /// <summary>Distance (box-normalized) from a point to the nearest stored crossing; ∞ without crossings.</summary>
-    private double NearestCrossingDistance(ReadOnlySpan<double> point) =>
-        _crossingTree is null ? double.PositiveInfinity : Math.Sqrt(_crossingTree.Nearest(point).SquaredDistance);
+    /// <summary>
+    /// Why the query is too far from a start sample to trust a count carried from it, or null: farther than
+    /// <see cref="ResolveOptions.CrossingMargin"/> of the sample's distance to the nearest stored crossing, where a
+    /// part of the locus the atlas has not sampled may lie in between.
+    /// </summary>
+    private string? Reach(ReadOnlySpan<double> start, ReadOnlySpan<double> normalized)
+    {
+        if (_crossingTree is null)
+        {
+            return null;
+        }
+
+        var distance = 0.0;
+        for (var k = 0; k < start.Length; k++)
+        {
+            distance += (normalized[k] - start[k]) * (normalized[k] - start[k]);
+        }
+
+        distance = Math.Sqrt(distance);
+        var clearance = Math.Sqrt(_crossingTree.Nearest(start).SquaredDistance);
+        return distance <= _options.CrossingMargin * clearance
+            ? null
+            : string.Create(CultureInfo.InvariantCulture, $"the point is {distance:G3} away, more than {_options.CrossingMargin} of its distance {clearance:G3} to the nearest stored crossing");
+    }
 
     private static double DistanceToSegment(ReadOnlySpan<double> point, ReadOnlySpan<double> a, ReadOnlySpan<double> b)
     {

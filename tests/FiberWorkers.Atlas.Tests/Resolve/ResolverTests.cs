@@ -92,12 +92,43 @@ public sealed class ResolverTests
                 var truth = (4 * b * b * b) + (27 * c * c) < 0 ? 3 : 1;
                 var answer = resolver.Ask([b, c]);
                 across += answer.PredictedLabel != truth ? 1 : 0;
-                Assert.True(answer.RealCount == truth, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says {truth}");
+                Assert.True(answer.RealCount == truth, $"at ({b}, {c}): {answer.Method} from {answer.StartSample} gave {answer.RealCount}, the discriminant says {truth}; {string.Join(" / ", answer.Rejections)}");
             }
         }
 
         // The construction must really have produced queries whose nearest sample is on the other side.
         Assert.True(across > 0, "no query had its nearest sample across the locus");
+    }
+
+    [Fact]
+    public void A_neighbour_with_more_real_solutions_answers_where_the_nearest_sample_has_fewer()
+    {
+        // Just inside the cubic's three-root region the nearest sample often lies outside with one root. Certified
+        // distinct real endpoints bound the count from below, so the resolver starts from the neighbour with the most
+        // roots: it must reach all three (the discriminant rule 4b³ + 27c² < 0 is the reference), never fewer.
+        using var atlas = new TempAtlas("more");
+        using var store = atlas.Open();
+        new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
+        var snapshot = AtlasSnapshot.Load(store, "more.db");
+        var resolver = AtlasResolver.Create(store, snapshot);
+        var random = new Random(23);
+        var raised = 0;
+        for (var i = 0; i < 400; i++)
+        {
+            var b = -0.3 - (1.5 * random.NextDouble());
+            var edge = Math.Sqrt(-4 * b * b * b / 27);
+            var c = (random.Next(2) == 0 ? -1 : 1) * (edge - (1e-3 * (1 + random.NextDouble())));
+            if (Math.Abs(c) > 2)
+            {
+                continue;
+            }
+
+            var answer = resolver.Ask([b, c]);
+            Assert.True(answer.RealCount == 3, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says 3");
+            raised += answer.Method == "real-track" && answer.PredictedLabel == 1 ? 1 : 0;
+        }
+
+        Assert.True(raised > 0, "no query inside the region was answered from a neighbour with more roots than the nearest sample");
     }
 
     private static double Distance(Complex[] a, Complex[] b) => a.Zip(b).Max(z => (z.First - z.Second).Magnitude);
