@@ -22,11 +22,12 @@ public sealed record ResolveOptions
     public int Neighbourhood { get; init; } = 8;
 
     /// <summary>
-    /// Accept a count below the neighbourhood's highest when a start sample with the highest count lost pairs of
-    /// solutions to a fold on its segment and a neighbour with the lower count reaches the same solutions from its
-    /// own side. Default true; false answers such queries by a full solve.
+    /// When real-only tracking from a start sample with the neighbourhood's highest count runs into a fold, track its
+    /// real solutions again around the fold through complex parameters and accept what arrives real, once a neighbour
+    /// with that count reaches the same solutions from its own side. Default true; false answers such queries by a
+    /// full solve.
     /// </summary>
-    public bool TwoSided { get; init; }
+    public bool TwoSided { get; init; } = true;
 
     /// <summary>
     /// A count is carried from a start sample only to queries at most this fraction of the sample's distance to its

@@ -19,9 +19,12 @@ namespace FiberWorkers.Atlas.Resolve;
 /// regular and certified real and no stored crossing's tangent plane separates the sample from the query near the
 /// segment; where the whole neighbourhood agrees, the query must also lie within a margin of the sample's distance to
 /// the nearest stored crossing. A count above the classifier's label is accepted this way (the certified solutions
-/// prove the label low). Otherwise a few more samples are tried, then the parameter homotopy from the start fiber
-/// solves in full. What the fast path cannot see: a pair of complex solutions turning real between a start sample
-/// and the query (real-only tracking never carries them); the neighbourhood, crossing and margin checks guard
+/// prove the label low). When a pair of paths meets a fold, the same sample's real solutions are tracked again around
+/// it through complex parameters and what arrives certified real is accepted once a neighbour holding that count
+/// reaches the same solutions from its own side (<see cref="ResolveOptions.TwoSided"/>). Otherwise a few more samples
+/// are tried, then the parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair
+/// of complex solutions of the start sample turning real between it and the query (neither real-only tracking nor the
+/// detour carries them); the neighbourhood, crossing and margin checks guard
 /// against it only as far as the atlas has sampled that part of the locus.
 /// </summary>
 public sealed class Resolver
@@ -36,6 +39,7 @@ public sealed class Resolver
     private readonly double[] _crossingPoints;
     private readonly double[][] _crossingNormals;
     private readonly KdTree? _crossingTree;
+    private readonly double[] _detour;
 
     public Resolver(AtlasSnapshot snapshot, FiberSolver solver, StartFiber start, RegionClassifier? classifier = null, ResolveOptions? options = null)
     {
@@ -59,15 +63,35 @@ public sealed class Resolver
         }
 
         _crossingTree = withNormals.Length > 0 ? new KdTree(_crossingPoints, _samples.Dimension) : null;
+
+        // The imaginary direction of detours around folds: fixed, so answers do not depend on the order of queries.
+        var random = new Solving.Randomness.SeededRandom(0x5eed_f01d);
+        _detour = new double[_samples.Dimension];
+        var norm = 0.0;
+        for (var k = 0; k < _detour.Length; k++)
+        {
+            _detour[k] = random.NextGaussian();
+            norm += _detour[k] * _detour[k];
+        }
+
+        for (var k = 0; k < _detour.Length; k++)
+        {
+            _detour[k] /= Math.Sqrt(norm);
+        }
     }
 
     /// <summary>
     /// Queries track over short distances (the nearest sample is close): a first step over the whole segment and no cap
     /// on the step let most paths finish in one step; the corrector's contraction bound still guards each step. A path
-    /// that needs steps below 1e-6 of the segment, or more than 100 of them, is running into a fold and fails early.
+    /// that needs steps below 1e-4 of the segment, or more than 50 of them, is running into a fold and stops early; the
+    /// detour around the fold then decides.
     /// </summary>
     private static readonly Solving.Tracking.TrackerOptions ShortSegment =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-6, MaxSteps = 100 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-4, MaxSteps = 50 };
+
+    /// <summary>The two legs of a detour around a fold: complex paths, no fold on them, a first step of half a leg.</summary>
+    private static readonly Solving.Tracking.TrackerOptions Detour =
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 0.5, MaxStepSize = 1.0 };
 
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
@@ -122,12 +146,13 @@ public sealed class Resolver
         // met, so the count is carried only over a short distance compared with the known locus.
         var unanimous = most == fewest;
 
-        // Stage 2, tried as soon as a fold shows: p on the side with fewer real solutions. A start sample with the
-        // most solutions lost an even number of them to a fold on its segment while the others arrived certified; a
-        // neighbour holding exactly the survivors' count must reach p from its own side with the same solutions. Two
-        // tracks from opposite sides of the fold then agree on the count and on every solution.
+        // Stage 2, when a fold shows: p may lie on the side with fewer real solutions. The start sample that lost a
+        // pair to the fold has all its real solutions tracked again around it, through complex parameters, so none
+        // meets the fold: at p each arrives real or non-real (certified either way), and a pair that turned complex
+        // and real again on the way is seen. The real ones must then be reached, the same, by real-only tracking from
+        // a neighbour holding that count on p's side. Both tracks rest on what the first stage rests on: the start
+        // samples' non-real solutions stay non-real over the short way to p.
         var tries = 0;
-        var otherSideTried = false;
         for (var i = 0; i < found && tries < _options.Attempts; i++)
         {
             var index = candidates[i];
@@ -143,23 +168,73 @@ public sealed class Resolver
                 return Accept(outcome.Solutions, index, predicted, rejections, paths, target);
             }
 
-            if (outcome.Lost is { } survivors)
+            if (outcome.Lost is null)
             {
-                // A fold lies between that sample and p: the others with the most solutions would mostly cross it too.
-                if (!_options.TwoSided || otherSideTried)
+                continue;
+            }
+
+            if (_options.TwoSided && AroundFold(index, target, rejections, ref paths) is { } real)
+            {
+                if (real.Count == most)
                 {
-                    break;
+                    return Accept(real, index, predicted, rejections, paths, target);
                 }
 
-                otherSideTried = true;
-                if (OtherSide(survivors, candidates[..found], normalized, target, rejections, ref paths) is { } other)
+                if (OtherSide(new Survivors(index, real), candidates[..found], normalized, target, rejections, ref paths) is { } other)
                 {
                     return Accept(other.Solutions, other.Index, predicted, rejections, paths, target);
                 }
             }
+
+            // A fold lies between that sample and p: the others with the most solutions would mostly cross it too.
+            break;
         }
 
         return Full(target, predicted, outside: false, rejections, paths);
+    }
+
+    /// <summary>
+    /// Tracks every real solution of a start sample to the query along two straight segments through the segment's
+    /// midpoint moved off the real plane by half the segment's length (box-normalized), so that no path meets a real
+    /// fold. Returns the endpoints certified real when every path arrives and every endpoint is a certified, distinct
+    /// zero whose reality is decided; else null, with the reason among the rejections.
+    /// </summary>
+    private IReadOnlyList<FiberPoint>? AroundFold(int index, Complex[] target, List<string> rejections, ref int paths)
+    {
+        var sample = _samples.Samples[index];
+        var from = ToComplex([.. sample.Point]);
+        var dimension = from.Length;
+        var length = 0.0;
+        for (var k = 0; k < dimension; k++)
+        {
+            var step = (target[k].Real - from[k].Real) / _samples.Box[k].Width;
+            length += step * step;
+        }
+
+        var middle = new Complex[dimension];
+        for (var k = 0; k < dimension; k++)
+        {
+            middle[k] = new Complex(0.5 * (from[k].Real + target[k].Real), 0.5 * Math.Sqrt(length) * _detour[k] * _samples.Box[k].Width);
+        }
+
+        var solutions = Solutions(sample);
+        paths += 2 * solutions.Count;
+        var first = _solver.TrackSegment(from, middle, solutions, Detour);
+        var second = first.AllRegular ? _solver.TrackSegment(middle, target, [.. first.Paths.Select(p => p.Endpoint!)], Detour) : null;
+        if (second is null || !second.AllRegular)
+        {
+            rejections.Add($"{SampleName(index)}: tracking around the fold failed");
+            return null;
+        }
+
+        var certified = _solver.Certify(target, [.. second.Paths.Select(p => (p.Index, p.Endpoint!))]);
+        if (!certified.All(c => c.Certified))
+        {
+            rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
+            return null;
+        }
+
+        return [.. certified.Where(c => c.Certificate.Reality == Reality.Real)];
     }
 
     /// <summary>

@@ -160,6 +160,12 @@ internal static class BenchCommand
                 writer.WriteNumber("fullP99Us", Math.Round(report.FullP99, 2));
                 writer.WriteNumber("speedup", Math.Round(report.FullMean / report.ResolveMean, 2));
                 writer.WriteNumber("fallbackRate", report.FallbackRate);
+                if (double.IsFinite(report.RealTrackMean))
+                {
+                    writer.WriteNumber("realTrackMeanUs", Math.Round(report.RealTrackMean, 2));
+                    writer.WriteNumber("realTrackP50Us", Math.Round(report.RealTrackP50, 2));
+                }
+
                 writer.WriteNumber("agreement", report.Agreement);
                 writer.WriteNumber("meanRealCount", Math.Round(report.MeanRealCount, 3));
                 writer.WriteEndObject();

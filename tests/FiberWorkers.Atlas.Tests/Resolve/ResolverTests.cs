@@ -131,6 +131,42 @@ public sealed class ResolverTests
         Assert.True(raised > 0, "no query inside the region was answered from a neighbour with more roots than the nearest sample");
     }
 
+    [Fact]
+    public void Just_outside_a_fold_the_count_comes_around_the_fold_and_from_the_other_side()
+    {
+        // Just outside the cubic's three-root region a neighbour inside still has three roots; tracked straight to
+        // the query, two of them meet at the fold. The answer must then come from the detour around the fold and a
+        // one-root neighbour agreeing, and equal the discriminant rule's count, 1.
+        using var atlas = new TempAtlas("outside");
+        using var store = atlas.Open();
+        new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
+        var snapshot = AtlasSnapshot.Load(store, "outside.db");
+        var resolver = AtlasResolver.Create(store, snapshot);
+        var strict = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { TwoSided = false });
+        var random = new Random(29);
+        var aroundFold = 0;
+        for (var i = 0; i < 400; i++)
+        {
+            var b = -0.3 - (1.5 * random.NextDouble());
+            var edge = Math.Sqrt(-4 * b * b * b / 27);
+            var c = (random.Next(2) == 0 ? -1 : 1) * (edge + (1e-3 * (1 + random.NextDouble())));
+            if (Math.Abs(c) > 2)
+            {
+                continue;
+            }
+
+            var answer = resolver.Ask([b, c]);
+            Assert.True(answer.RealCount == 1, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says 1");
+            if (answer.Method == "real-track" && answer.Rejections.Any(r => r.Contains("real-only tracking failed", StringComparison.Ordinal)))
+            {
+                aroundFold++;
+                Assert.Equal("full", strict.Ask([b, c]).Method);
+            }
+        }
+
+        Assert.True(aroundFold > 0, "no query was answered around a fold");
+    }
+
     private static double Distance(Complex[] a, Complex[] b) => a.Zip(b).Max(z => (z.First - z.Second).Magnitude);
 
     private static double Norm(Complex[] a) => a.Max(v => v.Magnitude);
