@@ -161,8 +161,15 @@ public sealed class Resolver
                 continue;
             }
 
+            // The margin needs no tracking: samples too far for it are passed over without using up an attempt.
+            if (unanimous && Reach(_samples.Points.AsSpan(index * _samples.Dimension, _samples.Dimension), normalized) is { } far)
+            {
+                rejections.Add($"{SampleName(index)}: {far}");
+                continue;
+            }
+
             tries++;
-            var outcome = Track(index, normalized, target, unanimous, rejections, ref paths);
+            var outcome = Track(index, normalized, target, rejections, ref paths);
             if (outcome.Accepted)
             {
                 return Accept(outcome.Solutions, index, predicted, rejections, paths, target);
@@ -252,7 +259,7 @@ public sealed class Resolver
                 continue;
             }
 
-            var outcome = Track(index, normalized, target, checkReach: false, rejections, ref paths);
+            var outcome = Track(index, normalized, target, rejections, ref paths);
             if (!outcome.Accepted)
             {
                 return null;
@@ -284,14 +291,12 @@ public sealed class Resolver
     /// returned: the mark of a fold on the segment, where pairs of real solutions meet and leave the real plane (a
     /// stored crossing across the segment is then expected, not a veto).
     /// </summary>
-    private Attempt Track(int index, ReadOnlySpan<double> normalized, Complex[] target, bool checkReach, List<string> rejections, ref int paths)
+    private Attempt Track(int index, ReadOnlySpan<double> normalized, Complex[] target, List<string> rejections, ref int paths)
     {
         var dimension = _samples.Dimension;
         var sample = _samples.Samples[index];
         var name = SampleName(index);
-        var start = _samples.Points.AsSpan(index * dimension, dimension);
-        var separated = CrossingBetween(start, normalized);
-        var reach = checkReach ? Reach(start, normalized) : null;
+        var separated = CrossingBetween(_samples.Points.AsSpan(index * dimension, dimension), normalized);
         var solutions = Solutions(sample);
         paths += solutions.Count;
         var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);
@@ -300,15 +305,9 @@ public sealed class Resolver
         var allCertified = certified.All(c => c.Certified && c.Certificate.Reality == Reality.Real);
         if (arrived.Length == tracked.Paths.Count)
         {
-            if (allCertified && separated is null && reach is null)
+            if (allCertified && separated is null)
             {
                 return new Attempt(true, certified, null);
-            }
-
-            if (reach is not null)
-            {
-                rejections.Add($"{name}: {reach}");
-                return default;
             }
 
             if (separated is not null)
