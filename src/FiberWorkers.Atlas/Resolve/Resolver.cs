@@ -182,7 +182,9 @@ public sealed class Resolver
 
             if (_options.TwoSided && AroundFold(index, target, rejections, ref paths) is { } real)
             {
-                if (real.Count == most)
+                // All arriving real proves the highest count, unless a stored crossing lies in between: there a pair of
+                // the sample's non-real solutions may have turned real too, which no track from it can see.
+                if (real.Count == most && !outcome.AcrossCrossing)
                 {
                     return Accept(real, index, predicted, rejections, paths, target);
                 }
@@ -194,7 +196,11 @@ public sealed class Resolver
             }
 
             // A fold lies between that sample and p: the others with the most solutions would mostly cross it too.
-            break;
+            // Across a stored crossing alone another sample may still lie on p's side of it.
+            if (!outcome.AcrossCrossing)
+            {
+                break;
+            }
         }
 
         return Full(target, predicted, outside: false, rejections, paths);
@@ -279,7 +285,7 @@ public sealed class Resolver
     }
 
     /// <summary>What tracking from one start sample gave: accepted solutions, or the certified survivors of a fold.</summary>
-    private readonly record struct Attempt(bool Accepted, IReadOnlyList<FiberPoint> Solutions, Survivors? Lost);
+    private readonly record struct Attempt(bool Accepted, IReadOnlyList<FiberPoint> Solutions, Survivors? Lost, bool AcrossCrossing = false);
 
     /// <summary>The certified endpoints of a start sample's paths when an even number of the others failed on the segment.</summary>
     private sealed record Survivors(int Sample, IReadOnlyList<FiberPoint> Solutions);
@@ -297,6 +303,13 @@ public sealed class Resolver
         var sample = _samples.Samples[index];
         var name = SampleName(index);
         var separated = CrossingBetween(_samples.Points.AsSpan(index * dimension, dimension), normalized);
+        if (separated is not null && _options.TwoSided)
+        {
+            // Real-only tracking could not be accepted across the crossing: go around the fold at once.
+            rejections.Add($"{name}: a stored crossing lies between it and the point ({separated})");
+            return new Attempt(false, [], new Survivors(index, []), AcrossCrossing: true);
+        }
+
         var solutions = Solutions(sample);
         paths += solutions.Count;
         var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);

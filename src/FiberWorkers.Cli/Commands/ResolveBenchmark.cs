@@ -14,37 +14,16 @@ internal static class ResolveBenchmark
 
     public static Report Run(Resolver resolver, AtlasSnapshot snapshot, int count, double nearShare, ulong seed)
     {
-        var random = new SeededRandom(seed);
-        var box = snapshot.Family.Parameters;
-        var folds = snapshot.Crossings.Where(c => c.Crossing.Kind == CrossingKind.Fold).Select(c => c.Crossing).ToArray();
-        var points = new double[count][];
-        for (var i = 0; i < count; i++)
-        {
-            var point = new double[box.Count];
-            if (folds.Length > 0 && random.NextDouble() < nearShare)
-            {
-                // Near the locus: a stored fold moved by about a thousandth of the box, clamped inside.
-                var fold = folds[random.NextInt(folds.Length)];
-                for (var k = 0; k < box.Count; k++)
-                {
-                    point[k] = Math.Clamp(fold.Point[k] + (1e-3 * box[k].Width * random.NextGaussian()), box[k].Low, box[k].High);
-                }
-            }
-            else
-            {
-                for (var k = 0; k < box.Count; k++)
-                {
-                    point[k] = random.NextDouble(box[k].Low, box[k].High);
-                }
-            }
+        var points = Draw(snapshot, count, nearShare, new SeededRandom(seed));
 
-            points[i] = point;
-        }
-
-        foreach (var warm in points.Take(Math.Min(20, count)))
+        // Warm the JIT for 3 s on other points drawn the same way: hot loops reach optimised code only after many
+        // calls and a quiet spell without new compilation, and a resolve reaches new code paths for a long while.
+        var warm = Draw(snapshot, Math.Min(count, 500), nearShare, new SeededRandom(seed ^ 0x9e3779b97f4a7c15UL));
+        var warmup = Stopwatch.StartNew();
+        for (var i = 0; warmup.Elapsed < TimeSpan.FromSeconds(3); i++)
         {
-            resolver.Ask(warm);
-            resolver.SolveFull(warm);
+            resolver.Ask(warm[i % warm.Length]);
+            resolver.SolveFull(warm[i % warm.Length]);
         }
 
         var resolveTimes = new double[count];
@@ -89,6 +68,37 @@ internal static class ResolveBenchmark
             rootCount,
             fastTimes.Count > 0 ? fastTimes.Average() : double.NaN,
             fastTimes.Count > 0 ? Percentile([.. fastTimes], 0.5) : double.NaN);
+    }
+
+    private static double[][] Draw(AtlasSnapshot snapshot, int count, double nearShare, SeededRandom random)
+    {
+        var box = snapshot.Family.Parameters;
+        var folds = snapshot.Crossings.Where(c => c.Crossing.Kind == CrossingKind.Fold).Select(c => c.Crossing).ToArray();
+        var points = new double[count][];
+        for (var i = 0; i < count; i++)
+        {
+            var point = new double[box.Count];
+            if (folds.Length > 0 && random.NextDouble() < nearShare)
+            {
+                // Near the locus: a stored fold moved by about a thousandth of the box, clamped inside.
+                var fold = folds[random.NextInt(folds.Length)];
+                for (var k = 0; k < box.Count; k++)
+                {
+                    point[k] = Math.Clamp(fold.Point[k] + (1e-3 * box[k].Width * random.NextGaussian()), box[k].Low, box[k].High);
+                }
+            }
+            else
+            {
+                for (var k = 0; k < box.Count; k++)
+                {
+                    point[k] = random.NextDouble(box[k].Low, box[k].High);
+                }
+            }
+
+            points[i] = point;
+        }
+
+        return points;
     }
 
     private static bool Close(Complex[] a, Complex[] b)
