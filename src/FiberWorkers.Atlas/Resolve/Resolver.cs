@@ -89,9 +89,9 @@ public sealed class Resolver
     private static readonly Solving.Tracking.TrackerOptions ShortSegment =
         Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-4, MaxSteps = 50 };
 
-    /// <summary>The two legs of a detour around a fold: complex paths, no fold on them, a first step of half a leg.</summary>
+    /// <summary>The two legs of a detour around a fold: complex paths, no fold on them, a first step over the whole leg.</summary>
     private static readonly Solving.Tracking.TrackerOptions Detour =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 0.5, MaxStepSize = 1.0 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0 };
 
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
