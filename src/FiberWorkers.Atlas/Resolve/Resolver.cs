@@ -287,15 +287,15 @@ public sealed class Resolver
     /// <summary>What tracking from one start sample gave: accepted solutions, or the certified survivors of a fold.</summary>
     private readonly record struct Attempt(bool Accepted, IReadOnlyList<FiberPoint> Solutions, Survivors? Lost, bool AcrossCrossing = false);
 
-    /// <summary>The certified endpoints of a start sample's paths when an even number of the others failed on the segment.</summary>
+    /// <summary>A start sample whose real-only track could not be accepted for a fold ahead (failed paths or a stored crossing).</summary>
     private sealed record Survivors(int Sample, IReadOnlyList<FiberPoint> Solutions);
 
     /// <summary>
     /// Tracks the real solutions of one start sample to the query and certifies the endpoints. Accepted when every path
     /// ends regular, every endpoint is a certified, distinct, real solution and no stored crossing separates the sample
-    /// from the query. When an even number of paths fail and every other endpoint certifies, the survivors are
-    /// returned: the mark of a fold on the segment, where pairs of real solutions meet and leave the real plane (a
-    /// stored crossing across the segment is then expected, not a veto).
+    /// from the query. When paths fail — the mark of a fold on the segment, where pairs of real solutions meet and leave
+    /// the real plane — or a stored crossing separates the two, the attempt says so, and the detour around the fold
+    /// decides.
     /// </summary>
     private Attempt Track(int index, ReadOnlySpan<double> normalized, Complex[] target, List<string> rejections, ref int paths)
     {
@@ -336,7 +336,7 @@ public sealed class Resolver
         var failed = tracked.Paths.Count - arrived.Length;
         var failure = tracked.Paths.First(p => p.Status != PathStatus.Regular).Failure;
         rejections.Add(string.Create(CultureInfo.InvariantCulture, $"{name}: real-only tracking failed on {failed} of {tracked.Paths.Count} paths ({failure.Name()})"));
-        return failed % 2 == 0 && allCertified ? new Attempt(false, certified, new Survivors(index, certified)) : default;
+        return new Attempt(false, certified, new Survivors(index, certified));
     }
 
     private ResolveAnswer Accept(IReadOnlyList<FiberPoint> solutions, int index, int predicted, List<string> rejections, int paths, Complex[] target)
