@@ -79,7 +79,15 @@ public sealed class KdTree
     /// The k = <paramref name="indices"/>.Length nearest points, closest first, into caller-owned spans; returns how
     /// many were found (fewer when the tree holds fewer points).
     /// </summary>
-    public int Nearest(ReadOnlySpan<double> query, Span<int> indices, Span<double> squaredDistances)
+    public int Nearest(ReadOnlySpan<double> query, Span<int> indices, Span<double> squaredDistances) =>
+        Nearest(query, indices, squaredDistances, double.PositiveInfinity);
+
+    /// <summary>
+    /// As <see cref="Nearest(ReadOnlySpan{double}, Span{int}, Span{double})"/>, but only points within
+    /// √<paramref name="maxSquaredDistance"/> of the query: cells farther away are never opened, so a small radius
+    /// costs a few leaves.
+    /// </summary>
+    public int Nearest(ReadOnlySpan<double> query, Span<int> indices, Span<double> squaredDistances, double maxSquaredDistance)
     {
         if (query.Length != Dimension)
         {
@@ -103,7 +111,7 @@ public sealed class KdTree
             top--;
             var nodeIndex = stack[top];
             var nodeBound = bounds[top];
-            if (found == k && nodeBound > squaredDistances[k - 1])
+            if (nodeBound > maxSquaredDistance || (found == k && nodeBound > squaredDistances[k - 1]))
             {
                 continue;
             }
@@ -115,7 +123,10 @@ public sealed class KdTree
                 {
                     var index = _order[p];
                     var distance = SquaredDistance(query, index);
-                    found = Insert(index, distance, indices, squaredDistances, found, k);
+                    if (distance <= maxSquaredDistance)
+                    {
+                        found = Insert(index, distance, indices, squaredDistances, found, k);
+                    }
                 }
 
                 continue;

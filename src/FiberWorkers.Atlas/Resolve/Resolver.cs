@@ -40,6 +40,7 @@ public sealed class Resolver
     private readonly double[][] _crossingNormals;
     private readonly KdTree? _crossingTree;
     private readonly double[] _detour;
+    private readonly double[] _clearance;
 
     public Resolver(AtlasSnapshot snapshot, FiberSolver solver, StartFiber start, RegionClassifier? classifier = null, ResolveOptions? options = null)
     {
@@ -63,6 +64,8 @@ public sealed class Resolver
         }
 
         _crossingTree = withNormals.Length > 0 ? new KdTree(_crossingPoints, _samples.Dimension) : null;
+        _clearance = new double[_crossingTree is null ? 0 : _samples.Samples.Count];
+        Array.Fill(_clearance, double.NaN);
 
         // The imaginary direction of detours around folds: fixed, so answers do not depend on the order of queries.
         var random = new Solving.Randomness.SeededRandom(0x5eed_f01d);
@@ -116,17 +119,19 @@ public sealed class Resolver
             outside |= normalized[k] < 0 || normalized[k] > 1;
         }
 
-        var predicted = _classifier.Classify(normalized);
         var target = ToComplex(point);
         if (outside)
         {
-            return Full(target, predicted, outside: true, [], 0);
+            return Full(target, _classifier.Classify(normalized), outside: true, [], 0);
         }
 
         var neighbourhood = Math.Clamp(Math.Max(_options.Attempts, _options.Neighbourhood), 1, 64);
         Span<int> candidates = stackalloc int[neighbourhood];
         Span<double> distances = stackalloc double[neighbourhood];
         var found = _nearest.Nearest(normalized, candidates, distances);
+
+        // The 1-NN classifier's label is the nearest neighbour's, already at hand.
+        var predicted = ReferenceEquals(_classifier, _nearest) && found > 0 ? _samples.Labels[candidates[0]] : _classifier.Classify(normalized);
         var rejections = new List<string>();
         var paths = 0;
 
@@ -162,7 +167,7 @@ public sealed class Resolver
             }
 
             // The margin needs no tracking: samples too far for it are passed over without using up an attempt.
-            if (unanimous && Reach(_samples.Points.AsSpan(index * _samples.Dimension, _samples.Dimension), normalized) is { } far)
+            if (unanimous && Reach(index, normalized) is { } far)
             {
                 rejections.Add($"{SampleName(index)}: {far}");
                 continue;
@@ -414,7 +419,7 @@ public sealed class Resolver
         var radius = (0.5 * Math.Sqrt(length)) + _options.CrossingReach;
         Span<int> near = stackalloc int[16];
         Span<double> squared = stackalloc double[16];
-        var count = _crossingTree.Nearest(middle, near, squared);
+        var count = _crossingTree.Nearest(middle, near, squared, radius * radius);
         for (var i = 0; i < count; i++)
         {
             if (squared[i] > radius * radius)
@@ -446,13 +451,14 @@ public sealed class Resolver
     /// <see cref="ResolveOptions.CrossingMargin"/> of the sample's distance to the nearest stored crossing, where a
     /// part of the locus the atlas has not sampled may lie in between.
     /// </summary>
-    private string? Reach(ReadOnlySpan<double> start, ReadOnlySpan<double> normalized)
+    private string? Reach(int index, ReadOnlySpan<double> normalized)
     {
         if (_crossingTree is null)
         {
             return null;
         }
 
+        var start = _samples.Points.AsSpan(index * _samples.Dimension, _samples.Dimension);
         var distance = 0.0;
         for (var k = 0; k < start.Length; k++)
         {
@@ -460,7 +466,15 @@ public sealed class Resolver
         }
 
         distance = Math.Sqrt(distance);
-        var clearance = Math.Sqrt(_crossingTree.Nearest(start).SquaredDistance);
+
+        // A sample's clearance never changes: computed on first use and kept (a race only computes it twice).
+        var clearance = Volatile.Read(ref _clearance[index]);
+        if (double.IsNaN(clearance))
+        {
+            clearance = Math.Sqrt(_crossingTree.Nearest(start).SquaredDistance);
+            Volatile.Write(ref _clearance[index], clearance);
+        }
+
         return distance <= _options.CrossingMargin * clearance
             ? null
             : string.Create(CultureInfo.InvariantCulture, $"the point is {distance:G3} away, more than {_options.CrossingMargin} of its distance {clearance:G3} to the nearest stored crossing");

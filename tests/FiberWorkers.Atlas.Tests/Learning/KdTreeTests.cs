@@ -73,6 +73,39 @@ public sealed class KdTreeTests
     }
 
     [Fact]
+    public void Radius_limited_queries_return_exactly_the_nearest_points_within_the_radius()
+    {
+        var random = new Random(41);
+        for (var dimension = 1; dimension <= 4; dimension++)
+        {
+            var points = new double[800 * dimension];
+            for (var i = 0; i < points.Length; i++)
+            {
+                points[i] = Math.Round(random.NextDouble() * 20) / 20; // duplicates and points on splits
+            }
+
+            var tree = new KdTree(points, dimension);
+            var indices = new int[9];
+            var distances = new double[9];
+            for (var q = 0; q < 200; q++)
+            {
+                var query = Enumerable.Range(0, dimension).Select(_ => random.NextDouble()).ToArray();
+                var radius = 0.02 + (0.2 * random.NextDouble());
+                var found = tree.Nearest(query, indices, distances, radius * radius);
+                var expected = Enumerable.Range(0, 800)
+                    .Select(i => (Index: i, Distance: Enumerable.Range(0, dimension).Sum(k => Math.Pow(query[k] - points[(i * dimension) + k], 2))))
+                    .Where(p => p.Distance <= radius * radius)
+                    .OrderBy(p => p.Distance).ThenBy(p => p.Index).Take(9).ToArray();
+                Assert.Equal(expected.Length, found);
+                for (var i = 0; i < found; i++)
+                {
+                    Assert.Equal(expected[i].Index, indices[i]);
+                }
+            }
+        }
+    }
+
+    [Fact]
     public void Queries_allocate_nothing()
     {
         var random = new Random(9);
