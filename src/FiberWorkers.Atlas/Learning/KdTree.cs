@@ -11,12 +11,15 @@ namespace FiberWorkers.Atlas.Learning;
 /// </summary>
 public sealed class KdTree
 {
-    private const int BucketSize = 8;
+    private const int BucketSize = 16;
     private const int MaxDepth = 64;
 
     private readonly double[] _points;
     private readonly int[] _order;
     private readonly Node[] _nodes;
+
+    /// <summary>The points again, in tree order: a leaf's points are contiguous, so a scan touches few cache lines.</summary>
+    private readonly double[] _leafPoints;
 
     /// <summary>Builds the tree over <paramref name="points"/> (row-major, <paramref name="dimension"/> per point).</summary>
     public KdTree(double[] points, int dimension)
@@ -52,6 +55,11 @@ public sealed class KdTree
         }
 
         _nodes = [.. nodes];
+        _leafPoints = new double[points.Length];
+        for (var p = 0; p < Count; p++)
+        {
+            Array.Copy(points, _order[p] * dimension, _leafPoints, p * dimension, dimension);
+        }
     }
 
     /// <summary>The dimension of the points.</summary>
@@ -61,7 +69,7 @@ public sealed class KdTree
     public int Count { get; }
 
     /// <summary>Approximate memory held by the tree, in bytes.</summary>
-    public long MemoryBytes => (_points.Length * 8L) + (_order.Length * 4L) + (_nodes.Length * (long)Unsafe.SizeOf<Node>());
+    public long MemoryBytes => (_points.Length * 16L) + (_order.Length * 4L) + (_nodes.Length * (long)Unsafe.SizeOf<Node>());
 
     /// <summary>Coordinate <paramref name="axis"/> of point <paramref name="index"/>.</summary>
     public double Coordinate(int index, int axis) => _points[(index * Dimension) + axis];
@@ -121,11 +129,10 @@ public sealed class KdTree
             {
                 for (var p = node.Start; p < node.End; p++)
                 {
-                    var index = _order[p];
-                    var distance = SquaredDistance(query, index);
+                    var distance = SquaredDistance(query, _leafPoints.AsSpan(p * Dimension, Dimension));
                     if (distance <= maxSquaredDistance)
                     {
-                        found = Insert(index, distance, indices, squaredDistances, found, k);
+                        found = Insert(_order[p], distance, indices, squaredDistances, found, k);
                     }
                 }
 
@@ -133,7 +140,7 @@ public sealed class KdTree
             }
 
             var difference = query[node.Axis] - node.Split;
-            var (near, far) = difference <= 0 ? (node.Left, node.Right) : (node.Right, node.Left);
+            var (near, far) = difference <= 0 ? (nodeIndex + 1, node.Right) : (node.Right, nodeIndex + 1);
             // Far side first on the stack, so the near side is searched first; its bound is the distance to the split.
             stack[top] = far;
             bounds[top++] = Math.Max(nodeBound, difference * difference);
@@ -151,7 +158,7 @@ public sealed class KdTree
         var bestDistance = double.PositiveInfinity;
         for (var i = 0; i < Count; i++)
         {
-            var distance = SquaredDistance(query, i);
+            var distance = SquaredDistance(query, _points.AsSpan(i * Dimension, Dimension));
             if (distance < bestDistance)
             {
                 best = i;
@@ -187,9 +194,8 @@ public sealed class KdTree
         distance < otherDistance || (distance == otherDistance && index < otherIndex);
 
     [MethodImpl(MethodImplOptions.AggressiveInlining)]
-    private double SquaredDistance(ReadOnlySpan<double> query, int index)
+    private static double SquaredDistance(ReadOnlySpan<double> query, ReadOnlySpan<double> point)
     {
-        var point = _points.AsSpan(index * Dimension, Dimension);
         var sum = 0.0;
         for (var d = 0; d < point.Length; d++)
         {
@@ -206,7 +212,7 @@ public sealed class KdTree
         nodes.Add(default);
         if (end - start <= BucketSize || depth >= MaxDepth - 1)
         {
-            nodes[self] = new Node(-1, 0, start, end, -1, -1);
+            nodes[self] = new Node(0, -1, start, end);
             return self;
         }
 
@@ -214,9 +220,9 @@ public sealed class KdTree
         var middle = (start + end) / 2;
         Select(start, end, middle, axis);
         var split = Coordinate(_order[middle], axis);
-        var left = Build(nodes, start, middle, depth + 1);
+        Build(nodes, start, middle, depth + 1); // the left child is always the next node (depth-first layout)
         var right = Build(nodes, middle, end, depth + 1);
-        nodes[self] = new Node(axis, split, start, end, left, right);
+        nodes[self] = new Node(split, axis, right, 0);
         return self;
     }
 
@@ -309,5 +315,16 @@ public sealed class KdTree
         return value > pivotValue || (value == pivotValue && b > pivot);
     }
 
-    private readonly record struct Node(int Axis, double Split, int Start, int End, int Left, int Right);
+    /// <summary>
+    /// A node in 24 bytes: a leaf (<see cref="Axis"/> &lt; 0) holds tree-order positions [A, B); an inner node splits
+    /// at <see cref="Split"/> on <see cref="Axis"/>, its left child is the next node and A is its right child.
+    /// </summary>
+    private readonly record struct Node(double Split, int Axis, int A, int B)
+    {
+        public int Start => A;
+
+        public int End => B;
+
+        public int Right => A;
+    }
 }
