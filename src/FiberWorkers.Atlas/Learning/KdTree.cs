@@ -97,6 +97,11 @@ public sealed class KdTree
     /// </summary>
     public int Nearest(ReadOnlySpan<double> query, Span<int> indices, Span<double> squaredDistances, double maxSquaredDistance)
     {
+        if (!(maxSquaredDistance >= 0))
+        {
+            throw new ArgumentOutOfRangeException(nameof(maxSquaredDistance), maxSquaredDistance, "the squared radius must be a non-negative number");
+        }
+
         if (query.Length != Dimension)
         {
             throw new ArgumentException($"the query has {query.Length} coordinates, the tree {Dimension}", nameof(query));

@@ -24,8 +24,8 @@ namespace FiberWorkers.Atlas.Resolve;
 /// reaches the same solutions from its own side (<see cref="ResolveOptions.TwoSided"/>). Otherwise a few more samples
 /// are tried, then the parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair
 /// of complex solutions of the start sample turning real between it and the query (neither real-only tracking nor the
-/// detour carries them); the neighbourhood, crossing and margin checks guard
-/// against it only as far as the atlas has sampled that part of the locus.
+/// detour carries them); the neighbourhood, crossing and margin checks guard against it only as far as the atlas has
+/// sampled that part of the locus.
 /// </summary>
 public sealed class Resolver
 {

@@ -137,5 +137,8 @@ public sealed class KdTreeTests
     {
         Assert.Throws<ArgumentException>(() => new KdTree([0.1, double.NaN], 2));
         Assert.Throws<ArgumentException>(() => new KdTree([0.1, 0.2, 0.3], 2));
+        var tree = new KdTree([0.1, 0.2], 2);
+        Assert.Throws<ArgumentOutOfRangeException>(() => tree.Nearest([0.1, 0.2], new int[1], new double[1], double.NaN));
+        Assert.Throws<ArgumentOutOfRangeException>(() => tree.Nearest([0.1, 0.2], new int[1], new double[1], -1));
     }
 }
