@@ -111,18 +111,9 @@ public sealed class ResolverTests
         new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
         var snapshot = AtlasSnapshot.Load(store, "more.db");
         var resolver = AtlasResolver.Create(store, snapshot);
-        var random = new Random(23);
         var raised = 0;
-        for (var i = 0; i < 400; i++)
+        foreach (var (b, c) in NearCubicLocus(seed: 23, outside: false))
         {
-            var b = -0.3 - (1.5 * random.NextDouble());
-            var edge = Math.Sqrt(-4 * b * b * b / 27);
-            var c = (random.Next(2) == 0 ? -1 : 1) * (edge - (1e-3 * (1 + random.NextDouble())));
-            if (Math.Abs(c) > 2)
-            {
-                continue;
-            }
-
             var answer = resolver.Ask([b, c]);
             Assert.True(answer.RealCount == 3, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says 3");
             raised += answer.Method == "real-track" && answer.PredictedLabel == 1 ? 1 : 0;
@@ -143,18 +134,9 @@ public sealed class ResolverTests
         var snapshot = AtlasSnapshot.Load(store, "outside.db");
         var resolver = AtlasResolver.Create(store, snapshot);
         var strict = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { TwoSided = false });
-        var random = new Random(29);
         var aroundFold = 0;
-        for (var i = 0; i < 400; i++)
+        foreach (var (b, c) in NearCubicLocus(seed: 29, outside: true))
         {
-            var b = -0.3 - (1.5 * random.NextDouble());
-            var edge = Math.Sqrt(-4 * b * b * b / 27);
-            var c = (random.Next(2) == 0 ? -1 : 1) * (edge + (1e-3 * (1 + random.NextDouble())));
-            if (Math.Abs(c) > 2)
-            {
-                continue;
-            }
-
             var answer = resolver.Ask([b, c]);
             Assert.True(answer.RealCount == 1, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says 1");
             if (answer.Method == "real-track" && answer.Rejections.Any(r => r.Contains("real-only tracking failed", StringComparison.Ordinal)))
@@ -165,6 +147,26 @@ public sealed class ResolverTests
         }
 
         Assert.True(aroundFold > 0, "no query was answered around a fold");
+    }
+
+    /// <summary>
+    /// Up to 400 points 1e-3 to 2e-3 (in c) inside or outside the cubic's three-root region 4b³ + 27c² &lt; 0, on both
+    /// branches, for b in [−1.8, −0.3] and |c| ≤ 2.
+    /// </summary>
+    private static IEnumerable<(double B, double C)> NearCubicLocus(int seed, bool outside)
+    {
+        var random = new Random(seed);
+        for (var i = 0; i < 400; i++)
+        {
+            var b = -0.3 - (1.5 * random.NextDouble());
+            var edge = Math.Sqrt(-4 * b * b * b / 27);
+            var offset = 1e-3 * (1 + random.NextDouble());
+            var c = (random.Next(2) == 0 ? -1 : 1) * (outside ? edge + offset : edge - offset);
+            if (Math.Abs(c) <= 2)
+            {
+                yield return (b, c);
+            }
+        }
     }
 
     private static double Distance(Complex[] a, Complex[] b) => a.Zip(b).Max(z => (z.First - z.Second).Magnitude);
