@@ -108,8 +108,7 @@ public sealed class ResolverTests
         // roots: it must reach all three (the discriminant rule 4b³ + 27c² < 0 is the reference), never fewer.
         using var atlas = new TempAtlas("more");
         using var store = atlas.Open();
-        new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
-        var snapshot = AtlasSnapshot.Load(store, "more.db");
+        var snapshot = SweepCubic(store, "more.db");
         var resolver = AtlasResolver.Create(store, snapshot);
         var raised = 0;
         foreach (var (b, c) in NearCubicLocus(seed: 23, outside: false))
@@ -130,8 +129,7 @@ public sealed class ResolverTests
         // one-root neighbour agreeing, and equal the discriminant rule's count, 1.
         using var atlas = new TempAtlas("outside");
         using var store = atlas.Open();
-        new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
-        var snapshot = AtlasSnapshot.Load(store, "outside.db");
+        var snapshot = SweepCubic(store, "outside.db");
         var resolver = AtlasResolver.Create(store, snapshot);
         var strict = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { TwoSided = false });
         var aroundFold = 0;
@@ -147,6 +145,13 @@ public sealed class ResolverTests
         }
 
         Assert.True(aroundFold > 0, "no query was answered around a fold");
+    }
+
+    /// <summary>The cubic over 6×6 tiles with 8 lines each, swept into <paramref name="store"/> and loaded.</summary>
+    private static AtlasSnapshot SweepCubic(SqliteAtlasStore store, string file)
+    {
+        new SweepRunner(store).Run(TestFamilies.Example("cubic"), new SweepOptions { Divisions = [6, 6], LinesPerTile = 8, MaxDegreeOfParallelism = 2 });
+        return AtlasSnapshot.Load(store, file);
     }
 
     /// <summary>
