@@ -78,9 +78,12 @@ internal static class MonodromyBenchmark
                 writer.WriteStartObject("monodromy");
                 writer.WriteNumber("seconds", Math.Round(monodromySeconds, 3));
                 writer.WriteNumber("rootCount", monodromy.Fiber.RootCount);
+                writer.WriteNumber("nodes", report.Nodes);
+                writer.WriteNumber("edges", report.Edges);
                 writer.WriteNumber("loops", report.Loops);
-                writer.WriteNumber("loopTracks", report.LoopTracks);
-                writer.WriteNumber("segmentPaths", (3 * report.LoopTracks) + report.FinalPaths);
+                writer.WriteNumber("segmentTracks", report.SegmentTracks);
+                writer.WriteNumber("finalPaths", report.FinalPaths);
+                writer.WriteNumber("paths", report.SegmentTracks + report.FinalPaths);
                 writer.WriteNumber("failedTracks", report.FailedTracks);
                 writer.WriteBoolean("augmented", report.Augmented);
                 writer.WriteString("completeness", report.Completeness);

@@ -3,16 +3,22 @@ namespace FiberWorkers.Solving.Monodromy;
 /// <summary>What a monodromy solve did and how sure it is of completeness.</summary>
 public sealed record MonodromyReport
 {
-    /// <summary>Loops (triangles in parameter space) used.</summary>
+    /// <summary>Independent loops of the homotopy graph (edges − nodes + 1, summed over the searches run).</summary>
     public required int Loops { get; init; }
 
-    /// <summary>Loops at the end that found nothing new.</summary>
+    /// <summary>Parameter points of the homotopy graph (the base point included).</summary>
+    public required int Nodes { get; init; }
+
+    /// <summary>Straight segments joining them.</summary>
+    public required int Edges { get; init; }
+
+    /// <summary>Loops added at the end that found nothing new.</summary>
     public required int LoopsWithoutNew { get; init; }
 
-    /// <summary>Solutions tracked around a loop (each is three segments).</summary>
-    public required long LoopTracks { get; init; }
+    /// <summary>Solutions tracked along an edge (one straight segment each).</summary>
+    public required long SegmentTracks { get; init; }
 
-    /// <summary>Loop tracks that failed or ended at a bad point (ignored).</summary>
+    /// <summary>Segment tracks that failed or ended at a bad point (ignored).</summary>
     public required long FailedTracks { get; init; }
 
     /// <summary>True when auxiliary parameters q were added to the constant terms.</summary>

@@ -12,12 +12,13 @@ namespace FiberWorkers.Solving.Monodromy;
 
 /// <summary>
 /// Finds the generic fiber of a family by monodromy (Duff, Hill, Jensen, Lee, Leykin &amp; Sommars 2019): start
-/// from one solution x₀ of a base system, track the known solutions around loops (triangles of straight segments
-/// through random complex parameter points) and keep every new endpoint, until the known set is closed under the
-/// loops and a number of further loops add nothing. A family that cannot place x₀ in a fiber by choosing its own
+/// from one solution x₀ of a base system, carry the known solutions along the edges of a homotopy graph (the base
+/// point and random complex parameter points, joined pairwise by straight segments) and keep every new endpoint,
+/// until the known sets are closed under the graph's loops and the trace test passes, or further loops add
+/// nothing. A family that cannot place x₀ in a fiber by choosing its own
 /// parameters gets auxiliary parameters q on the constant terms, F(x; p) + q with q₀ = −F(x₀; p₀); the fiber at
 /// q = 0 is then reached by one parameter homotopy with endgame (and a detour through a random point when paths
-/// of it fail). Batches of loop tracks run in parallel; results are merged in a fixed order, so a seed gives the
+/// of it fail). Batches of segment tracks run in parallel; results are merged in a fixed order, so a seed gives the
 /// same fiber on any number of threads.
 /// </summary>
 internal sealed class MonodromySolver
@@ -77,7 +78,7 @@ internal sealed class MonodromySolver
                 checkedFiber = atBase.Fiber.Count >= goal ? atBase : null;
                 return checkedFiber is not null;
             };
-        var phase = RunLoops(system, projective, chart, basis, solutions, complete, random);
+        var phase = RunGraph(system, projective, chart, basis, solutions, complete, random);
 
         // Bring the base fiber to the family itself at p₀ when it was augmented.
         // A successful check ended the loops at once, so its fiber is the final one.
@@ -89,6 +90,8 @@ internal sealed class MonodromySolver
         var tracks = phase.Tracks;
         var failedTracks = phase.Failed;
         var loopCount = phase.Loops;
+        var nodes = phase.Nodes;
+        var edges = phase.Edges;
         var stall = phase.Stall;
         var trace = phase.Trace;
         var skipped = phase.Skipped;
@@ -102,12 +105,14 @@ internal sealed class MonodromySolver
             // The homotopy to q = 0 can lose solutions whose paths meet singularities or escape; loops in the
             // family's own parameters, started from the fiber it reached, find them again wherever the family's
             // solutions form one connected (irreducible) set with those already known.
-            var own = RunLoops(
+            var own = RunGraph(
                 _system, _system.Homogenize().Compile(), ProjectiveChart.Random(n + 1, random), parameters, fiber,
                 known => known.Count >= expected, random);
             tracks += own.Tracks;
             failedTracks += own.Failed;
             loopCount += own.Loops;
+            nodes += own.Nodes;
+            edges += own.Edges;
             stall = own.Stall;
             trace = own.Trace ?? trace;
             skipped = own.Skipped ?? skipped;
@@ -121,7 +126,9 @@ internal sealed class MonodromySolver
         {
             Loops = loopCount,
             LoopsWithoutNew = stall,
-            LoopTracks = tracks,
+            Nodes = nodes,
+            Edges = edges,
+            SegmentTracks = tracks,
             FailedTracks = failedTracks,
             Augmented = augmented,
             BaseRootCount = baseCount,
@@ -130,7 +137,7 @@ internal sealed class MonodromySolver
             TraceTest = trace,
             TraceTestSkipped = skipped,
         };
-        var note = $"monodromy: {loopCount} loops, {tracks} loop tracks ({failedTracks} failed), {baseCount} solutions at the "
+        var note = $"monodromy: {nodes} points joined by {edges} segments ({loopCount} loops), {tracks} segment tracks ({failedTracks} failed), {baseCount} solutions at the "
             + (augmented ? $"augmented base point, {fiber.Count} after the homotopy to q = 0; " : $"base point; ")
             + completeness switch
             {
@@ -142,7 +149,7 @@ internal sealed class MonodromySolver
                             + "has solutions at infinity on the moving slice, and further loops found nothing new)"
                         : skipped is not null ? $"; trace test not run: {skipped}" : string.Empty),
             };
-        var provenance = new StartFiberProvenance("monodromy", (ulong)_solve.Seed, tracks * 3 + finalPaths, completeness, note);
+        var provenance = new StartFiberProvenance("monodromy", (ulong)_solve.Seed, tracks + finalPaths, completeness, note);
         return (new StartFiber(familyHash, _system.Unknowns, parameters, fiber, provenance), report);
     }
 
@@ -184,7 +191,7 @@ internal sealed class MonodromySolver
         // branch point, which may exchange the failed paths' ends with those of paths that arrived.
         for (var attempt = 0; attempt < DetourAttempts && failures > 0; attempt++)
         {
-            var detour = NewLoop(basis, random, 1)[0];
+            var detour = NewPoint(basis, random, 1);
             var there = solver.Solve(Fiber(familyHash, system, basis, solutions, tracks), detour);
             var back = solver.Solve(Fiber(familyHash, system, detour, [.. there.Solutions.Select(s => s.Values)], tracks), target);
             paths += there.PathsTracked + back.PathsTracked;
@@ -208,129 +215,262 @@ internal sealed class MonodromySolver
     private static StartFiber Fiber(string familyHash, PolynomialSystem system, Complex[] point, List<Complex[]> solutions, long tracks) =>
         new(familyHash, system.Unknowns, point, solutions, new StartFiberProvenance("monodromy", 0, tracks, "stopping-rule", string.Empty));
 
-    /// <summary>Loop endpoints for a batch, in batch order (null where a track failed).</summary>
-    private Complex[]?[] TrackBatch(
-        (int Solution, int Loop)[] batch,
-        List<Complex[]> solutions,
-        List<Complex[][]> loops,
-        CompiledSystem projective,
-        ProjectiveChart chart,
-        Complex[] basis)
+    /// <summary>Edge endpoints for a batch, in batch order (null where a track failed).</summary>
+    private Complex[]?[] TrackBatch(List<EdgeTask> batch, HomotopyGraph graph, CompiledSystem projective, ProjectiveChart chart)
     {
-        var ends = new Complex[]?[batch.Length];
-        var threads = Math.Max(1, Math.Min(_solve.MaxDegreeOfParallelism, batch.Length));
+        var ends = new Complex[]?[batch.Count];
+        var threads = Math.Max(1, Math.Min(_solve.MaxDegreeOfParallelism, batch.Count));
         Parallel.For(
             0,
-            batch.Length,
+            batch.Count,
             new ParallelOptions { MaxDegreeOfParallelism = threads },
             (k, _) =>
             {
-                var (solution, loop) = batch[k];
-                ends[k] = AroundLoop(solutions[solution], loops[loop], projective, chart, basis);
+                var task = batch[k];
+                var (from, to) = graph.Ends(task.Edge, task.Forward);
+                ends[k] = AlongEdge(graph.Solutions[from][task.Source], graph.Points[from], graph.Points[to], projective, chart);
             });
         return ends;
     }
 
-    /// <summary>What one phase of loops did.</summary>
-    private readonly record struct LoopPhase(int Loops, long Tracks, long Failed, int Stall, TraceTestResult? Trace, string? Skipped);
+    /// <summary>What one search of a homotopy graph did.</summary>
+    private readonly record struct GraphPhase(int Nodes, int Edges, long Tracks, long Failed, int Stall, TraceTestResult? Trace, string? Skipped)
+    {
+        /// <summary>Independent loops of the graph (its cycle rank).</summary>
+        public int Loops => Edges - Nodes + 1;
+    }
+
+    /// <summary>One solution to carry along one edge, forward (A → B) or back.</summary>
+    private readonly record struct EdgeTask(int Edge, bool Forward, int Source);
 
     /// <summary>
-    /// Tracks every known (solution, loop) pair, adds new endpoints, adds loops while they keep finding solutions,
-    /// and stops on the expected count, a passing trace test, or the stopping rule. <paramref name="solutions"/>
-    /// grows in place; merging in batch order keeps it independent of thread counts.
+    /// Parameter points (nodes) joined by straight segments (edges), the solutions known at each node, and for
+    /// each edge the partial matching of the two nodes' solutions that tracks along it have revealed.
     /// </summary>
-    private LoopPhase RunLoops(
-        PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions,
-        Func<List<Complex[]>, bool> complete, SeededRandom random)
+    private sealed class HomotopyGraph
     {
-        var loops = new List<Complex[][]>();
-        var pending = new List<(int Solution, int Loop)>();
-        long tracks = 0;
-        long failedTracks = 0;
-        var stall = 0;
-        var trace = (TraceTestResult?)null;
-        var skipped = (string?)null;
-        var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
-        // A failed trace test is the only warning that solutions may be missing, so it quadruples the stall loops
-        // needed before the stopping rule may end the search. Some base points have loops that mix the missing
-        // solutions with the known ones only now and then: in a sixth to under half of the loops, for five-bus
-        // microgrid fibers missing a group of 5 to 10 large solutions and for two-link-arm fibers missing one of
-        // their two. With twice the stall loops about one microgrid fiber in 90 and one arm fiber in 30 stopped
-        // short (600 seeds each); with four times, one microgrid fiber in 300 and one arm fiber in 1,200.
-        var done = false;
-        while (!done && loops.Count < _options.MaxLoops
-            && stall < (trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops))
+        /// <summary>No track along the edge has reached or left this solution yet.</summary>
+        public const int Unknown = -1;
+
+        /// <summary>The track from this solution failed; the straight segment would fail again.</summary>
+        public const int Failed = -2;
+
+        public List<Complex[]> Points { get; } = [];
+
+        public List<List<Complex[]>> Solutions { get; } = [];
+
+        public List<(int A, int B)> Edges { get; } = [];
+
+        /// <summary>Per edge: the matching A → B and B → A by solution index.</summary>
+        private readonly List<(List<int> Forward, List<int> Back)> _matching = [];
+
+        public (int From, int To) Ends(int edge, bool forward) =>
+            forward ? (Edges[edge].A, Edges[edge].B) : (Edges[edge].B, Edges[edge].A);
+
+        public int Match(int edge, bool forward, int source)
         {
-            loops.Add(NewLoop(basis, random, LoopSpread(stall)));
-            var before = solutions.Count;
-            for (var s = 0; s < solutions.Count; s++)
+            var list = forward ? _matching[edge].Forward : _matching[edge].Back;
+            return source < list.Count ? list[source] : Unknown;
+        }
+
+        public void SetMatch(int edge, bool forward, int source, int target)
+        {
+            var list = forward ? _matching[edge].Forward : _matching[edge].Back;
+            while (list.Count <= source)
             {
-                pending.Add((s, loops.Count - 1));
+                list.Add(Unknown);
             }
 
-            while (pending.Count > 0 && !(done = complete(solutions)))
+            if (list[source] == Unknown)
             {
-                var batch = pending.ToArray();
-                pending.Clear();
-                var ends = TrackBatch(batch, solutions, loops, projective, chart, basis);
-                tracks += batch.Length;
-                foreach (var end in ends)
-                {
-                    if (end is null)
-                    {
-                        failedTracks++;
-                        continue;
-                    }
+                list[source] = target;
+            }
+        }
 
-                    if (!solutions.Any(known => Close(known, end, MergeTolerance)))
+        public int AddNode(Complex[] point, List<Complex[]> solutions)
+        {
+            Points.Add(point);
+            Solutions.Add(solutions);
+            return Points.Count - 1;
+        }
+
+        public int AddEdge(int a, int b)
+        {
+            Edges.Add((a, b));
+            _matching.Add(([], []));
+            return Edges.Count - 1;
+        }
+
+        /// <summary>A task for every edge at <paramref name="node"/> that has not matched solution <paramref name="index"/>.</summary>
+        public void Enqueue(int node, int index, List<EdgeTask> pending)
+        {
+            for (var e = 0; e < Edges.Count; e++)
+            {
+                if (Edges[e].A == node || Edges[e].B == node)
+                {
+                    var forward = Edges[e].A == node;
+                    if (Match(e, forward, index) == Unknown)
                     {
-                        solutions.Add(end);
-                        for (var l = 0; l < loops.Count; l++)
-                        {
-                            pending.Add((solutions.Count - 1, l));
-                        }
+                        pending.Add(new EdgeTask(e, forward, index));
                     }
                 }
             }
+        }
+    }
 
-            stall = solutions.Count == before ? stall + 1 : 0;
+    /// <summary>
+    /// Nodes the graph starts with: a triangle (one loop). Each added node is joined to the base point and the
+    /// newest node (one more loop through the base for two edges). On the five-bus microgrid (seeds 1–5 and three
+    /// seeds with large base solutions) this reached all 70 solutions with 750–2,360 segment tracks; starting from
+    /// four nodes joined pairwise took 860–2,470, and joining each new node to every other one up to 7,200 (many
+    /// loops through one far point mix no better than one). Joining new nodes to the two newest instead, loops
+    /// drift away from the base with the growing spread and stop encircling the branch points near it: the
+    /// two-bus line then stayed at one of its two solutions at some seeds.
+    /// </summary>
+    private const int InitialNodes = 3;
 
-            // Once a loop adds nothing, the trace test on the base fiber (two tracks per solution, cheaper than a
-            // loop's three) can end the search. A failure means solutions are missing or that the test does not
-            // apply (points of the fiber at infinity on the moving slice); the stopping rule then decides.
-            done = done || complete(solutions);
-            if (stall > 0 && _options.TraceTest && !done)
+
+    /// <summary>
+    /// Searches a homotopy graph (Duff et al. 2019): nodes are the base point and random complex parameter points,
+    /// joined pairwise by straight segments. Every solution known at a node is carried along every edge at that
+    /// node whose matching does not yet hold it; an endpoint not known at the far node is a new solution there,
+    /// carried on in turn. A loop of the graph thus needs no track of its own: each edge is tracked at most once
+    /// per solution pair, in either direction, and solutions found at any node spread to all. When no edge has
+    /// anything left to carry, the trace test on the base fiber decides; otherwise a node joined to the base point
+    /// and the newest node adds a loop (farther out after additions that found nothing), until the expected count, a passed trace
+    /// test, the stopping rule, or the loop limit. <paramref name="solutions"/> is the base node's list and grows
+    /// in place; merging in batch order keeps the search independent of thread counts.
+    /// </summary>
+    private GraphPhase RunGraph(
+        PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions,
+        Func<List<Complex[]>, bool> complete, SeededRandom random)
+    {
+        var graph = new HomotopyGraph();
+        var pending = new List<EdgeTask>();
+        graph.AddNode(basis, solutions);
+        for (var k = 1; k < InitialNodes; k++)
+        {
+            AddJoinedNode(graph, NewPoint(basis, random, LoopSpread(0)), pending, Enumerable.Range(0, k));
+        }
+
+        long tracks = 0;
+        long failedTracks = 0;
+        var stall = 0;
+        var stalledNodes = 0;
+        var countAtLastRest = 0;
+        var countAtLastTrace = 0;
+        var addedLoops = 0;
+        var trace = (TraceTestResult?)null;
+        var skipped = (string?)null;
+        var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
+        var done = false;
+        while (true)
+        {
+            while (pending.Count > 0 && !(done = complete(solutions)))
             {
+                var batch = pending.Where(t => graph.Match(t.Edge, t.Forward, t.Source) == HomotopyGraph.Unknown).ToList();
+                pending.Clear();
+                var ends = TrackBatch(batch, graph, projective, chart);
+                tracks += batch.Count;
+                for (var k = 0; k < batch.Count; k++)
+                {
+                    var task = batch[k];
+                    if (ends[k] is not { } end)
+                    {
+                        failedTracks++;
+                        graph.SetMatch(task.Edge, task.Forward, task.Source, HomotopyGraph.Failed);
+                        continue;
+                    }
+
+                    var (_, to) = graph.Ends(task.Edge, task.Forward);
+                    var known = graph.Solutions[to];
+                    var target = known.FindIndex(x => Close(x, end, MergeTolerance));
+                    if (target < 0)
+                    {
+                        known.Add(end);
+                        target = known.Count - 1;
+                        graph.Enqueue(to, target, pending);
+                    }
+
+                    graph.SetMatch(task.Edge, task.Forward, task.Source, target);
+                    graph.SetMatch(task.Edge, !task.Forward, target, task.Source);
+                }
+            }
+
+            done = done || complete(solutions);
+            if (done)
+            {
+                stall = solutions.Count > countAtLastRest ? 0 : stall;
+                break;
+            }
+
+            // Nothing left to carry: the graph's loops have closed the base fiber under their monodromy.
+            (stall, stalledNodes) = solutions.Count > countAtLastRest ? (0, 0) : (stall + addedLoops, stalledNodes + 1);
+            countAtLastRest = solutions.Count;
+
+            // The trace test (two tracks per solution) can end the search. A failure means solutions are missing or
+            // that the test does not apply (points of the fiber at infinity on the moving slice); the stopping rule
+            // then decides. The verdict changes only with the fiber, so it is not repeated on the same one.
+            if (_options.TraceTest && solutions.Count != countAtLastTrace)
+            {
+                countAtLastTrace = solutions.Count;
                 (trace, skipped) = traceTest.Run(basis, solutions, random);
                 if (trace is { Passed: true })
                 {
                     break;
                 }
             }
+
+            var loops = graph.Edges.Count - graph.Points.Count + 1;
+            var patience = trace is { Passed: false } ? TraceFailurePatience * _options.StallLoops : _options.StallLoops;
+            if (stall >= patience || loops >= _options.MaxLoops)
+            {
+                break;
+            }
+
+            // The new node joins the base point and the newest node: a triangle through the base, like a fresh loop
+            // from it, for two edges instead of three.
+            addedLoops = AddJoinedNode(graph, NewPoint(basis, random, LoopSpread(stalledNodes)), pending, [0, graph.Points.Count - 1]) - 1;
         }
 
-        return new LoopPhase(loops.Count, tracks, failedTracks, stall, trace, skipped);
+        return new GraphPhase(graph.Points.Count, graph.Edges.Count, tracks, failedTracks, stall, trace, skipped);
     }
 
-    private Complex[]? AroundLoop(Complex[] start, Complex[][] loop, CompiledSystem projective, ProjectiveChart chart, Complex[] basis)
+    /// <summary>
+    /// Adds a node joined to <paramref name="others"/>, with tasks for every solution known at them; returns the
+    /// edges added.
+    /// </summary>
+    private static int AddJoinedNode(HomotopyGraph graph, Complex[] point, List<EdgeTask> pending, IEnumerable<int> others)
+    {
+        var node = graph.AddNode(point, []);
+        var joined = 0;
+        foreach (var other in others)
+        {
+            var edge = graph.AddEdge(other, node);
+            joined++;
+            for (var i = 0; i < graph.Solutions[other].Count; i++)
+            {
+                pending.Add(new EdgeTask(edge, true, i));
+            }
+        }
+
+        return joined;
+    }
+
+    private Complex[]? AlongEdge(Complex[] start, Complex[] from, Complex[] to, CompiledSystem projective, ProjectiveChart chart)
     {
         var x = new Complex[start.Length + 1];
         chart.Lift(start, x);
-        var corners = new[] { basis, loop[0], loop[1], basis };
-        PathTracker? tracker = null;
-        for (var edge = 0; edge < 3; edge++)
+        var homotopy = new ParameterHomotopy(projective, chart, from, to);
+        var tracker = new PathTracker(homotopy.CreateEvaluator());
+        if (!tracker.Track(x, 0, 1, _solve.Tracker).Completed)
         {
-            var homotopy = new ParameterHomotopy(projective, chart, corners[edge], corners[edge + 1]);
-            tracker = new PathTracker(homotopy.CreateEvaluator());
-            if (!tracker.Track(x, 0, 1, _solve.Tracker).Completed)
-            {
-                return null;
-            }
+            return null;
         }
 
         // Refine in the chart, where solutions with large coordinates stay well scaled, and judge the point with
         // a chart-independent, row-equilibrated condition number; only then leave the chart.
-        tracker!.Refine(x, 1, 4, 1e-15);
+        tracker.Refine(x, 1, 4, 1e-15);
         if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
             || !(tracker.ProjectiveCondition(x, 1) <= _solve.Endgame.SingularConditionLimit))
         {
@@ -347,27 +487,23 @@ internal sealed class MonodromySolver
     }
 
     /// <summary>
-    /// The corners' spread relative to the base point: 1 while loops find new solutions, then doubling with each
-    /// loop that found nothing, up to 16. Small triangles encircle the branch points near the base; once those
-    /// stop adding solutions, the ones that join the missing solutions to the known ones may lie farther out
-    /// (for the five-bus microgrid, where the large solutions of the base fiber meet the others). Loops wider
-    /// than about 16 mixed those no more often.
+    /// A new node's spread relative to the base point: 1 for the first nodes and while added nodes find new
+    /// solutions, then doubling with each added node that found nothing, up to 16. Small loops encircle the branch
+    /// points near the base; once those stop adding solutions, the ones that join the missing solutions to the
+    /// known ones may lie farther out (for the five-bus microgrid, where the large solutions of the base fiber meet
+    /// the others). Loops wider than about 16 mixed those no more often.
     /// </summary>
-    private static double LoopSpread(int loopsWithoutNew) => 1 << Math.Min(loopsWithoutNew, 4);
+    private static double LoopSpread(int nodesWithoutNew) => 1 << Math.Min(nodesWithoutNew, 4);
 
-    private static Complex[][] NewLoop(Complex[] basis, SeededRandom random, double spread)
+    private static Complex[] NewPoint(Complex[] basis, SeededRandom random, double spread)
     {
-        var corners = new Complex[2][];
-        for (var c = 0; c < 2; c++)
+        var point = new Complex[basis.Length];
+        for (var k = 0; k < basis.Length; k++)
         {
-            corners[c] = new Complex[basis.Length];
-            for (var k = 0; k < basis.Length; k++)
-            {
-                corners[c][k] = basis[k] + (spread * (1 + basis[k].Magnitude) * random.NextComplexGaussian());
-            }
+            point[k] = basis[k] + (spread * (1 + basis[k].Magnitude) * random.NextComplexGaussian());
         }
 
-        return corners;
+        return point;
     }
 
     /// <summary>(p₀, q₀) with q₀ = −F(x₀; p₀).</summary>

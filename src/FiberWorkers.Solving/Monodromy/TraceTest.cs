@@ -40,17 +40,33 @@ internal sealed class TraceTest(PolynomialSystem system, SolveOptions solve, dou
         for (var k = 0; k < 2; k++)
         {
             var homotopy = new PencilHomotopy(curve, parameters, chart, slice, sigmas[k]);
-            var tracker = new PathTracker(homotopy.CreateEvaluator());
             var moved = new Complex[start.Length][];
-            for (var i = 0; i < start.Length; i++)
-            {
-                moved[i] = (Complex[])start[i].Clone();
-                if (!tracker.Track(moved[i], 0, 1, solve.Tracker).Completed)
+            var failed = 0;
+            // Paths are independent and summed in index order, so threads do not change the verdict.
+            Parallel.For(
+                0,
+                start.Length,
+                new ParallelOptions { MaxDegreeOfParallelism = Math.Max(1, solve.MaxDegreeOfParallelism) },
+                () => new PathTracker(homotopy.CreateEvaluator()),
+                (i, _, tracker) =>
                 {
-                    return (null, "inconclusive: a path of the pencil failed");
-                }
+                    var z = (Complex[])start[i].Clone();
+                    if (tracker.Track(z, 0, 1, solve.Tracker).Completed)
+                    {
+                        tracker.Refine(z, 1, 3, 1e-15);
+                    }
+                    else
+                    {
+                        Interlocked.Increment(ref failed);
+                    }
 
-                tracker.Refine(moved[i], 1, 3, 1e-15);
+                    moved[i] = z;
+                    return tracker;
+                },
+                _ => { });
+            if (failed > 0)
+            {
+                return (null, "inconclusive: a path of the pencil failed");
             }
 
             sums[k + 1] = Sum(moved);

@@ -25,9 +25,13 @@ public sealed class MonodromySolverTests
         Assert.Equal(rootCount, without.Fiber.RootCount);
         Assert.Equal(rootCount, with.Fiber.RootCount);
         Assert.Equal(rootCount, with.Report.BaseRootCount);
-        Assert.True(with.Report.Loops < without.Report.Loops, $"{with.Report.Loops} loops with the count, {without.Report.Loops} without");
-        Assert.True(with.Report.LoopTracks < without.Report.LoopTracks);
-        // It stopped inside the loop that completed the fiber, not after a loop that found nothing.
+        Assert.True(with.Report.Loops <= without.Report.Loops, $"{with.Report.Loops} loops with the count, {without.Report.Loops} without");
+        Assert.True(
+            with.Report.SegmentTracks <= without.Report.SegmentTracks,
+            $"{with.Report.SegmentTracks} segment tracks with the count, {without.Report.SegmentTracks} without");
+        // The count ends the search without a passing trace test; without it the search needs one or the stopping rule.
+        Assert.False(with.Report.TraceTest is { Passed: true });
+        // It stopped while carrying solutions, not after a loop that found nothing.
         Assert.Equal(0, with.Report.LoopsWithoutNew);
         Assert.Equal("expected-count", with.Report.Completeness);
         Assert.Equal("expected-count", with.Fiber.Provenance.Completeness);
@@ -124,11 +128,13 @@ public sealed class MonodromySolverTests
         Assert.True(report.Augmented);
         // One path per base solution to q = 0 (no path failed here, so no detour was needed).
         Assert.Equal(report.BaseRootCount, report.FinalPaths);
-        Assert.InRange(report.FailedTracks, 0, report.LoopTracks);
-        // Every solution goes around every loop it has not been around yet: at least one track per solution
-        // and loop once the search has settled.
-        Assert.True(report.LoopTracks >= (long)report.BaseRootCount * (report.Loops - 1));
-        Assert.Equal((3 * report.LoopTracks) + report.FinalPaths, fiber.Provenance.PathsTracked);
+        Assert.InRange(report.FailedTracks, 0, report.SegmentTracks);
+        Assert.Equal(report.Edges - report.Nodes + 1, report.Loops);
+        // The search ended at rest (trace test): every edge matches the solutions at its two ends, and each
+        // matched pair took one track in one direction or the other.
+        Assert.Equal("trace-test", report.Completeness);
+        Assert.True(report.SegmentTracks >= (long)report.Edges * report.BaseRootCount, $"{report.SegmentTracks} tracks, {report.Edges} edges");
+        Assert.Equal(report.SegmentTracks + report.FinalPaths, fiber.Provenance.PathsTracked);
         Assert.Equal((ulong)8_501, fiber.Provenance.Seed);
     }
 
