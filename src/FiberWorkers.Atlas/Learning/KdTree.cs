@@ -5,14 +5,16 @@ namespace FiberWorkers.Atlas.Learning;
 /// <summary>
 /// A k-d tree (Bentley 1975) for exact nearest-neighbour queries in a few dimensions: points are split at the median
 /// of the axis of largest spread into buckets of a few points; queries descend to the query's bucket, then visit other
-/// buckets only when their box is nearer than the best distance so far (Friedman, Bentley &amp; Finkel 1977).
-/// Queries allocate nothing (an explicit stack on the stack); ties go to the smaller point index, so answers are
+/// buckets only when their box is nearer than the best distance so far (Friedman, Bentley &amp; Finkel 1977), that
+/// distance kept per axis and updated incrementally (Arya &amp; Mount 1993). Queries allocate nothing (recursion of
+/// the tree's depth, per-axis offsets on the stack); ties go to the smaller point index, so answers are
 /// deterministic. Immutable after construction and safe for concurrent queries.
 /// </summary>
 public sealed class KdTree
 {
     private const int BucketSize = 16;
     private const int MaxDepth = 64;
+    private const double BoundSlack = 1e-12;
 
     private readonly double[] _points;
     private readonly int[] _order;
@@ -77,10 +79,82 @@ public sealed class KdTree
     /// <summary>The nearest point to <paramref name="query"/>: its index and squared Euclidean distance.</summary>
     public (int Index, double SquaredDistance) Nearest(ReadOnlySpan<double> query)
     {
-        Span<int> nearest = stackalloc int[1];
-        Span<double> distances = stackalloc double[1];
-        var found = Nearest(query, nearest, distances);
-        return found == 0 ? (-1, double.PositiveInfinity) : (nearest[0], distances[0]);
+        if (query.Length != Dimension)
+        {
+            throw new ArgumentException($"the query has {query.Length} coordinates, the tree {Dimension}", nameof(query));
+        }
+
+        if (Count == 0)
+        {
+            return (-1, double.PositiveInfinity);
+        }
+
+        Span<double> offsets = stackalloc double[Dimension];
+        offsets.Clear();
+        var best = (Index: -1, SquaredDistance: double.PositiveInfinity);
+        SearchOne(0, query, offsets, 0, ref best);
+        return best;
+    }
+
+    /// <summary>
+    /// Depth-first 1-NN search with the incremental cell distance (Arya &amp; Mount 1993): <paramref name="offsets"/>
+    /// holds the query's distance to the current cell along each axis and <paramref name="bound"/> the sum of their
+    /// squares, a tighter bound than the distance to the last split alone.
+    /// </summary>
+    private void SearchOne(int nodeIndex, ReadOnlySpan<double> query, Span<double> offsets, double bound, ref (int Index, double SquaredDistance) best)
+    {
+        ref readonly var node = ref _nodes[nodeIndex];
+        if (node.Axis < 0)
+        {
+            ScanLeaf(node.Start, node.End, query, ref best);
+            return;
+        }
+
+        var axis = node.Axis;
+        var difference = query[axis] - node.Split;
+        var (near, far) = difference <= 0 ? (nodeIndex + 1, node.Right) : (node.Right, nodeIndex + 1);
+        SearchOne(near, query, offsets, bound, ref best);
+        var previous = offsets[axis];
+        var farBound = bound - (previous * previous) + (difference * difference);
+        // The bound is summed in another order than a point's distance; the slack keeps rounding from pruning a
+        // cell that holds an exact tie (smaller index wins).
+        if (farBound * (1 - BoundSlack) <= best.SquaredDistance)
+        {
+            offsets[axis] = difference;
+            SearchOne(far, query, offsets, farBound, ref best);
+            offsets[axis] = previous;
+        }
+    }
+
+    private void ScanLeaf(int start, int end, ReadOnlySpan<double> query, ref (int Index, double SquaredDistance) best)
+    {
+        var points = _leafPoints;
+        if (Dimension == 3)
+        {
+            // The common case (three parameters) unrolled; the same arithmetic, in the same order, as below.
+            double q0 = query[0], q1 = query[1], q2 = query[2];
+            for (var p = start; p < end; p++)
+            {
+                var at = p * 3;
+                double d0 = q0 - points[at], d1 = q1 - points[at + 1], d2 = q2 - points[at + 2];
+                var distance = (d0 * d0) + (d1 * d1) + (d2 * d2);
+                if (distance <= best.SquaredDistance && Before(distance, _order[p], best.SquaredDistance, best.Index))
+                {
+                    best = (_order[p], distance);
+                }
+            }
+
+            return;
+        }
+
+        for (var p = start; p < end; p++)
+        {
+            var distance = SquaredDistance(query, points.AsSpan(p * Dimension, Dimension));
+            if (distance <= best.SquaredDistance && Before(distance, _order[p], best.SquaredDistance, best.Index))
+            {
+                best = (_order[p], distance);
+            }
+        }
     }
 
     /// <summary>
@@ -113,47 +187,53 @@ public sealed class KdTree
             return 0;
         }
 
-        var found = 0;
-        Span<int> stack = stackalloc int[MaxDepth * 2];
-        Span<double> bounds = stackalloc double[MaxDepth * 2];
-        var top = 0;
-        stack[top] = 0;
-        bounds[top++] = 0;
-        while (top > 0)
+        Span<double> offsets = stackalloc double[Dimension];
+        offsets.Clear();
+        var search = new Search(k, maxSquaredDistance);
+        SearchMany(0, query, offsets, 0, indices, squaredDistances, ref search);
+        return search.Found;
+    }
+
+    /// <summary>State of a k-nearest search: points found so far, how many are wanted, the radius.</summary>
+    private struct Search(int k, double maxSquaredDistance)
+    {
+        public int Found;
+        public readonly int K = k;
+        public readonly double MaxSquaredDistance = maxSquaredDistance;
+    }
+
+    /// <summary>The k-nearest search, with the same incremental cell distance as <see cref="SearchOne"/>.</summary>
+    private void SearchMany(
+        int nodeIndex, ReadOnlySpan<double> query, Span<double> offsets, double bound, Span<int> indices, Span<double> squaredDistances, ref Search search)
+    {
+        ref readonly var node = ref _nodes[nodeIndex];
+        if (node.Axis < 0)
         {
-            top--;
-            var nodeIndex = stack[top];
-            var nodeBound = bounds[top];
-            if (nodeBound > maxSquaredDistance || (found == k && nodeBound > squaredDistances[k - 1]))
+            for (var p = node.Start; p < node.End; p++)
             {
-                continue;
-            }
-
-            ref readonly var node = ref _nodes[nodeIndex];
-            if (node.Axis < 0)
-            {
-                for (var p = node.Start; p < node.End; p++)
+                var distance = SquaredDistance(query, _leafPoints.AsSpan(p * Dimension, Dimension));
+                if (distance <= search.MaxSquaredDistance)
                 {
-                    var distance = SquaredDistance(query, _leafPoints.AsSpan(p * Dimension, Dimension));
-                    if (distance <= maxSquaredDistance)
-                    {
-                        found = Insert(_order[p], distance, indices, squaredDistances, found, k);
-                    }
+                    search.Found = Insert(_order[p], distance, indices, squaredDistances, search.Found, search.K);
                 }
-
-                continue;
             }
 
-            var difference = query[node.Axis] - node.Split;
-            var (near, far) = difference <= 0 ? (nodeIndex + 1, node.Right) : (node.Right, nodeIndex + 1);
-            // Far side first on the stack, so the near side is searched first; its bound is the distance to the split.
-            stack[top] = far;
-            bounds[top++] = Math.Max(nodeBound, difference * difference);
-            stack[top] = near;
-            bounds[top++] = nodeBound;
+            return;
         }
 
-        return found;
+        var axis = node.Axis;
+        var difference = query[axis] - node.Split;
+        var (near, far) = difference <= 0 ? (nodeIndex + 1, node.Right) : (node.Right, nodeIndex + 1);
+        SearchMany(near, query, offsets, bound, indices, squaredDistances, ref search);
+        var previous = offsets[axis];
+        var farBound = bound - (previous * previous) + (difference * difference);
+        var prune = farBound * (1 - BoundSlack);
+        if (prune <= search.MaxSquaredDistance && (search.Found < search.K || prune <= squaredDistances[search.K - 1]))
+        {
+            offsets[axis] = difference;
+            SearchMany(far, query, offsets, farBound, indices, squaredDistances, ref search);
+            offsets[axis] = previous;
+        }
     }
 
     /// <summary>Brute-force nearest neighbour, the reference the tree is tested against.</summary>

@@ -73,6 +73,50 @@ public sealed class KdTreeTests
     }
 
     [Fact]
+    public void K_nearest_on_a_grid_break_ties_by_index_like_a_full_sort()
+    {
+        // Grid coordinates: many equal distances and points on split planes, where the incremental cell bound must
+        // not prune a cell that holds an exact tie.
+        for (var dimension = 1; dimension <= 4; dimension++)
+        {
+            var random = new Random(40 + dimension);
+            var points = new double[600 * dimension];
+            for (var i = 0; i < points.Length; i++)
+            {
+                points[i] = Math.Round(random.NextDouble() * 6) / 6;
+            }
+
+            var tree = new KdTree(points, dimension);
+            var indices = new int[9];
+            var distances = new double[9];
+            for (var q = 0; q < 40; q++)
+            {
+                var query = Enumerable.Range(0, dimension).Select(_ => Math.Round(random.NextDouble() * 12) / 12).ToArray();
+                var found = tree.Nearest(query, indices, distances);
+                var expected = Enumerable.Range(0, 600)
+                    .Select(i => (Index: i, Distance: SquaredDistance(query, points.AsSpan(i * dimension, dimension))))
+                    .OrderBy(p => p.Distance).ThenBy(p => p.Index).Take(9).ToArray();
+                Assert.Equal(9, found);
+                Assert.Equal(expected.Select(e => e.Index), indices);
+                Assert.Equal(expected.Select(e => e.Distance), distances);
+            }
+        }
+    }
+
+    /// <summary>The tree's own summation order: coordinate by coordinate from zero.</summary>
+    private static double SquaredDistance(double[] query, ReadOnlySpan<double> point)
+    {
+        var sum = 0.0;
+        for (var k = 0; k < point.Length; k++)
+        {
+            var difference = query[k] - point[k];
+            sum += difference * difference;
+        }
+
+        return sum;
+    }
+
+    [Fact]
     public void Radius_limited_queries_return_exactly_the_nearest_points_within_the_radius()
     {
         var random = new Random(41);
