@@ -38,7 +38,7 @@ internal static class SweepBenchmark
     {
         var example = new Option<string>("--example") { Description = "The bundled family.", DefaultValueFactory = _ => "microgrid4" };
         var budget = new Option<long>("--budget") { Description = "Sample budget of the sweep (it picks the tiles).", DefaultValueFactory = _ => 100_000 };
-        var lines = new Option<int>("--lines") { Description = "Lines per tile.", DefaultValueFactory = _ => 4 };
+        var lines = new Option<int?>("--lines") { Description = "Lines per tile; the tiles then follow from the budget (default: 4 tiles per axis, lines from the budget)." };
         var threads = new Option<int>("--threads") { Description = "Tiles computed at once (default: all cores).", DefaultValueFactory = _ => Environment.ProcessorCount };
         var costSamples = new Option<int>("--cost-samples") { Description = "Near-boundary samples (and as many midpoints) timed one by one for the cost ratio.", DefaultValueFactory = _ => 400 };
         var command = new Command("sweep", "A whole sweep with a sample budget: samples per second by kind; cost of a near-boundary sample vs a solved midpoint.");
@@ -56,14 +56,15 @@ internal static class SweepBenchmark
             }
 
             var samplesBudget = parse.GetValue(budget) is >= 100 and <= 100_000_000 ? parse.GetValue(budget) : throw new UsageException("--budget must be between 100 and 100000000");
-            var lineCount = parse.GetValue(lines) is >= 1 and <= 10_000 ? parse.GetValue(lines) : throw new UsageException("--lines must be between 1 and 10000");
+            var givenLines = parse.GetValue(lines) is not { } l ? (int?)null : l is >= 1 and <= 10_000 ? l : throw new UsageException("--lines must be between 1 and 10000");
             var threadCount = parse.GetValue(threads) is >= 1 and <= 4096 ? parse.GetValue(threads) : throw new UsageException("--threads must be between 1 and 4096");
             var timed = parse.GetValue(costSamples) is >= 1 and <= 100_000 ? parse.GetValue(costSamples) : throw new UsageException("--cost-samples must be between 1 and 100000");
 
             var family = ExampleCatalog.Load(name);
+            var (divisions, lineCount) = SweepCommand.Layout("auto", family.Parameters.Count, givenLines, samplesBudget);
             var options = new SweepOptions
             {
-                Divisions = SweepCommand.Divisions("auto", family.Parameters.Count, lineCount, samplesBudget),
+                Divisions = divisions,
                 LinesPerTile = lineCount,
                 MaxDegreeOfParallelism = threadCount,
                 SampleBudget = samplesBudget,

@@ -329,7 +329,6 @@ internal sealed class MonodromySolver
     /// </summary>
     private const int InitialNodes = 3;
 
-
     /// <summary>
     /// Searches a homotopy graph (Duff et al. 2019): nodes are the base point and random complex parameter points,
     /// joined pairwise by straight segments. Every solution known at a node is carried along every edge at that
@@ -337,9 +336,9 @@ internal sealed class MonodromySolver
     /// carried on in turn. A loop of the graph thus needs no track of its own: each edge is tracked at most once
     /// per solution pair, in either direction, and solutions found at any node spread to all. When no edge has
     /// anything left to carry, the trace test on the base fiber decides; otherwise a node joined to the base point
-    /// and the newest node adds a loop (farther out after additions that found nothing), until the expected count, a passed trace
-    /// test, the stopping rule, or the loop limit. <paramref name="solutions"/> is the base node's list and grows
-    /// in place; merging in batch order keeps the search independent of thread counts.
+    /// and the newest node adds a loop (farther out after additions that found nothing), until the expected count,
+    /// a passed trace test, the stopping rule, or the loop limit. <paramref name="solutions"/> is the base node's
+    /// list and grows in place; merging in batch order keeps the search independent of thread counts.
     /// </summary>
     private GraphPhase RunGraph(
         PolynomialSystem system, CompiledSystem projective, ProjectiveChart chart, Complex[] basis, List<Complex[]> solutions,
