@@ -38,6 +38,16 @@ internal static class CommandLine
         return root;
     }
 
+    /// <summary>The parser names the expected .NET type; say what kind of value it wants instead.</summary>
+    internal static string Readable(string message) => System.Text.RegularExpressions.Regex.Replace(
+        message,
+        @"System\.(?:Nullable`1\[System\.)?(Int32|Int64|Double|UInt64)\]?",
+        match => match.Groups[1].Value switch
+        {
+            "Double" => "number",
+            _ => "integer",
+        });
+
     public static async Task<int> RunAsync(string[] args, TextWriter output, TextWriter error)
     {
         var root = Build(output, error);
@@ -46,7 +56,7 @@ internal static class CommandLine
         {
             foreach (var problem in parse.Errors)
             {
-                await error.WriteLineAsync($"fiber: {problem.Message}");
+                await error.WriteLineAsync($"fiber: {Readable(problem.Message)}");
             }
 
             await error.WriteLineAsync("Run 'fiber --help' for usage.");

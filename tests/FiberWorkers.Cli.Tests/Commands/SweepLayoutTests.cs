@@ -45,4 +45,17 @@ public sealed class SweepLayoutTests
 
         Assert.Equal(1, lines);
     }
+
+    [Theory]
+    [InlineData("--lines", "abc", "Cannot parse argument 'abc' for option '--lines' as expected type 'integer'")]
+    [InlineData("--budget", "1e9x", "Cannot parse argument '1e9x' for option '--budget' as expected type 'integer'")]
+    public async Task A_value_that_is_not_a_number_is_named_without_the_runtime_type(string option, string value, string expected)
+    {
+        var (code, output, error) = await CliRunner.RunAsync("sweep", "--example", "cubic", "--atlas", "unused.db", option, value);
+
+        Assert.Equal(2, code);
+        Assert.Equal(string.Empty, output);
+        Assert.Contains(expected, error, StringComparison.Ordinal);
+        Assert.DoesNotContain("System.", error, StringComparison.Ordinal);
+    }
 }
