@@ -4,13 +4,20 @@ namespace FiberWorkers.Atlas.Learning;
 
 /// <summary>
 /// A fully connected feedforward classifier: tanh hidden layers and a softmax output over the labels present.
-/// Inputs are box-normalized coordinates in [0, 1], mapped to [−1, 1] inside. Immutable once trained; queries need a
-/// caller-owned <see cref="NetworkWorkspace"/> (one per thread) and allocate nothing.
+/// Inputs are box-normalized coordinates in [0, 1], mapped to u in [−1, 1] inside. Optionally the first layer sees
+/// Fourier features of u instead of u itself (Tancik et al. 2020): sin(π·bⱼ·u) and cos(π·bⱼ·u) for fixed random
+/// frequency vectors bⱼ, which let a small network draw the sharp, curved boundaries of a region map in a few
+/// dimensions. Immutable once trained; queries need a caller-owned <see cref="NetworkWorkspace"/> (one per thread)
+/// and allocate nothing.
 /// </summary>
 public sealed class FeedforwardNetwork
 {
     /// <summary>Creates a network from its layer sizes (inputs, hidden…, outputs) and parameters.</summary>
-    public FeedforwardNetwork(int[] layerSizes, double[] parameters, int[] labels)
+    /// <param name="layerSizes">Sizes of every layer; the first is the input width (2m with m Fourier features).</param>
+    /// <param name="parameters">Weights and biases.</param>
+    /// <param name="labels">The label of each output.</param>
+    /// <param name="frequencies">The m frequency vectors bⱼ, row-major (m × input dimension), or null for none.</param>
+    public FeedforwardNetwork(int[] layerSizes, double[] parameters, int[] labels, double[]? frequencies = null)
     {
         ArgumentNullException.ThrowIfNull(layerSizes);
         ArgumentNullException.ThrowIfNull(parameters);
@@ -18,6 +25,22 @@ public sealed class FeedforwardNetwork
         if (layerSizes.Length < 2 || layerSizes.Any(s => s < 1))
         {
             throw new ArgumentException("a network needs at least an input and an output layer", nameof(layerSizes));
+        }
+
+        if (frequencies is not null)
+        {
+            var features = layerSizes[0] / 2;
+            if (layerSizes[0] % 2 != 0 || frequencies.Length == 0 || frequencies.Length % features != 0)
+            {
+                throw new ArgumentException(
+                    $"{frequencies.Length} Fourier frequencies do not fill {features} features over an input of whole coordinates (input layer {layerSizes[0]})",
+                    nameof(frequencies));
+            }
+
+            if (frequencies.Any(f => !double.IsFinite(f)))
+            {
+                throw new ArgumentException("a Fourier frequency is not a finite number", nameof(frequencies));
+            }
         }
 
         if (parameters.Length != ParameterCount(layerSizes))
@@ -33,7 +56,15 @@ public sealed class FeedforwardNetwork
         LayerSizes = layerSizes;
         Parameters = parameters;
         Labels = labels;
+        Frequencies = frequencies;
+        InputDimension = frequencies is null ? layerSizes[0] : frequencies.Length / (layerSizes[0] / 2);
     }
+
+    /// <summary>The Fourier features' frequency vectors (m × <see cref="InputDimension"/>, row-major), or null.</summary>
+    public double[]? Frequencies { get; }
+
+    /// <summary>Coordinates of a query point.</summary>
+    public int InputDimension { get; }
 
     /// <summary>Sizes of every layer: inputs, hidden layers, outputs.</summary>
     public int[] LayerSizes { get; }
@@ -81,15 +112,34 @@ public sealed class FeedforwardNetwork
     /// <summary>Runs the layers, leaving every activation in the workspace; returns the softmax output.</summary>
     internal ReadOnlySpan<double> Forward(ReadOnlySpan<double> input, NetworkWorkspace workspace)
     {
-        if (input.Length != LayerSizes[0])
+        if (input.Length != InputDimension)
         {
-            throw new ArgumentException($"the input has {input.Length} coordinates, the network {LayerSizes[0]}", nameof(input));
+            throw new ArgumentException($"the input has {input.Length} coordinates, the network {InputDimension}", nameof(input));
         }
 
         var first = workspace.Activations[0];
-        for (var i = 0; i < input.Length; i++)
+        if (Frequencies is { } frequencies)
         {
-            first[i] = (2 * input[i]) - 1;
+            var features = LayerSizes[0] / 2;
+            for (var j = 0; j < features; j++)
+            {
+                var phase = 0.0;
+                for (var k = 0; k < input.Length; k++)
+                {
+                    phase += frequencies[(j * input.Length) + k] * ((2 * input[k]) - 1);
+                }
+
+                phase *= Math.PI;
+                first[j] = Math.Sin(phase);
+                first[features + j] = Math.Cos(phase);
+            }
+        }
+        else
+        {
+            for (var i = 0; i < input.Length; i++)
+            {
+                first[i] = (2 * input[i]) - 1;
+            }
         }
 
         var offset = 0;

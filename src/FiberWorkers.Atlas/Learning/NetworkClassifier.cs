@@ -5,8 +5,8 @@ namespace FiberWorkers.Atlas.Learning;
 /// <summary>A trained <see cref="FeedforwardNetwork"/> as a region classifier, and its stored form.</summary>
 public sealed class NetworkClassifier : RegionClassifier
 {
-    /// <summary>The model format this build writes and reads.</summary>
-    public const uint FormatVersion = 1;
+    /// <summary>The newest model format this build writes and reads (1 for plain inputs, 2 with Fourier features).</summary>
+    public const uint FormatVersion = 2;
 
     private readonly ThreadLocal<NetworkWorkspace> _workspaces;
 
@@ -35,7 +35,7 @@ public sealed class NetworkClassifier : RegionClassifier
     {
         var model = new ClassifierModel
         {
-            FormatVersion = FormatVersion,
+            FormatVersion = Network.Frequencies is null ? 1 : FormatVersion,
             Kind = "net",
             Activation = "tanh",
             TrainedOnVersion = trainedOnVersion,
@@ -46,6 +46,11 @@ public sealed class NetworkClassifier : RegionClassifier
         model.High.Add(box.Select(b => b.High));
         model.LayerSizes.Add(Network.LayerSizes);
         model.Parameters.Add(Network.Parameters);
+        if (Network.Frequencies is { } frequencies)
+        {
+            model.FourierFrequencies.Add(frequencies);
+        }
+
         return model;
     }
 
@@ -53,9 +58,15 @@ public sealed class NetworkClassifier : RegionClassifier
     public static NetworkClassifier FromModel(ClassifierModel model, string source)
     {
         ArgumentNullException.ThrowIfNull(model);
-        if (model.FormatVersion != FormatVersion)
+        if (model.FormatVersion is < 1 or > FormatVersion)
         {
-            throw new Algebra.Families.InputException(source, "model", $"format version {model.FormatVersion} is not known to this build (reads {FormatVersion})");
+            throw new Algebra.Families.InputException(source, "model", $"format version {model.FormatVersion} is not known to this build (reads 1 to {FormatVersion})");
+        }
+
+        if ((model.FormatVersion >= 2) != (model.FourierFrequencies.Count > 0))
+        {
+            throw new Algebra.Families.InputException(
+                source, "model", $"format version {model.FormatVersion} with {model.FourierFrequencies.Count} Fourier frequencies (version 2 has them, version 1 not)");
         }
 
         if (model.Kind != "net" || model.Activation != "tanh")
@@ -65,7 +76,14 @@ public sealed class NetworkClassifier : RegionClassifier
 
         try
         {
-            return new NetworkClassifier(new FeedforwardNetwork([.. model.LayerSizes], [.. model.Parameters], [.. model.Labels]), model.Training);
+            var frequencies = model.FourierFrequencies.Count > 0 ? model.FourierFrequencies.ToArray() : null;
+            var network = new FeedforwardNetwork([.. model.LayerSizes], [.. model.Parameters], [.. model.Labels], frequencies);
+            if (network.InputDimension != model.Low.Count || model.High.Count != model.Low.Count)
+            {
+                throw new ArgumentException($"inputs of {network.InputDimension} coordinates, a box of {model.Low.Count}");
+            }
+
+            return new NetworkClassifier(network, model.Training);
         }
         catch (ArgumentException e)
         {

@@ -26,6 +26,15 @@ public sealed record NetworkOptions
     /// <summary>Seed of initialization, shuffling and the held-out split. Default 1.</summary>
     public ulong Seed { get; init; } = 1;
 
+    /// <summary>
+    /// Fourier features of the input (m random frequency vectors, so 2m inputs to the first hidden layer), or 0 for
+    /// the plain coordinates. Default 0.
+    /// </summary>
+    public int FourierFeatures { get; init; }
+
+    /// <summary>Standard deviation of the Fourier frequencies (Gaussian, per coordinate of u in [−1, 1]). Default 2.</summary>
+    public double FourierScale { get; init; } = 2;
+
     /// <summary>Threads computing each batch's gradient (the result does not depend on it). Default: all cores.</summary>
     public int Threads { get; init; } = Environment.ProcessorCount;
 }
@@ -56,8 +65,24 @@ public static class NetworkTrainer
 
         var classes = labels.Distinct().Order().ToArray();
         var classOf = labels.Select(l => Array.IndexOf(classes, l)).ToArray();
-        int[] sizes = [dimension, .. options.Hidden, classes.Length];
+        if (options.FourierFeatures < 0 || !(options.FourierScale > 0) || !double.IsFinite(options.FourierScale))
+        {
+            throw new ArgumentException("Fourier features need a count of at least 0 and a positive, finite scale");
+        }
+
+        int[] sizes = [options.FourierFeatures > 0 ? 2 * options.FourierFeatures : dimension, .. options.Hidden, classes.Length];
         var random = new SeededRandom(SeededRandom.Derive(options.Seed, "network"));
+        double[]? frequencies = null;
+        if (options.FourierFeatures > 0)
+        {
+            // From their own stream, so the split and the initial weights are those of the same seed without features.
+            var waves = new SeededRandom(SeededRandom.Derive(options.Seed, "fourier-features"));
+            frequencies = new double[options.FourierFeatures * dimension];
+            for (var i = 0; i < frequencies.Length; i++)
+            {
+                frequencies[i] = options.FourierScale * waves.NextGaussian();
+            }
+        }
 
         // Held-out split and initial weights, both from the seed.
         var order = Enumerable.Range(0, labels.Length).ToArray();
@@ -66,7 +91,7 @@ public static class NetworkTrainer
         var validation = order[..validationCount];
         var training = order[validationCount..];
         var parameters = Initialize(sizes, random);
-        var network = new FeedforwardNetwork(sizes, parameters, classes);
+        var network = new FeedforwardNetwork(sizes, parameters, classes, frequencies);
 
         var adam = new AdamState(parameters.Length);
         var chunkGradients = Enumerable.Range(0, Chunks).Select(_ => new double[parameters.Length]).ToArray();
@@ -138,7 +163,7 @@ public static class NetworkTrainer
             }
         }
 
-        return (new FeedforwardNetwork(sizes, best, classes), history);
+        return (new FeedforwardNetwork(sizes, best, classes, frequencies), history);
     }
 
     /// <summary>Cross-entropy at one sample; adds its gradient to <paramref name="gradient"/>.</summary>

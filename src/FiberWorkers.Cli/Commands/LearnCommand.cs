@@ -22,13 +22,14 @@ internal static class LearnCommand
         var layers = new Option<string>("--layers") { Description = "Hidden layer sizes of the network, e.g. 64,64.", DefaultValueFactory = _ => "64,64" };
         var epochs = new Option<int>("--epochs") { Description = "Most training epochs of the network.", DefaultValueFactory = _ => 300 };
         var seed = new Option<long>("--seed") { Description = "Seed of the split and the network's training.", DefaultValueFactory = _ => 1 };
+        var (fourier, fourierScale) = FourierOptions();
         var holdout = new Option<double>("--holdout") { Description = "Share of the atlas's lines held out for validation.", DefaultValueFactory = _ => 0.2 };
         var version = AtlasArguments.VersionOption();
         var json = new Option<bool>("--json") { Description = "Print the result as one JSON object." };
         var command = new Command("learn", "Train a region classifier on an atlas and store it in the atlas as a new version.");
         atlas.AddTo(command);
         choice.AddTo(command);
-        foreach (var option in new Option[] { layers, epochs, seed, holdout, version, json })
+        foreach (var option in new Option[] { layers, epochs, fourier, fourierScale, seed, holdout, version, json })
         {
             command.Options.Add(option);
         }
@@ -48,6 +49,7 @@ internal static class LearnCommand
 
             var hidden = Layers(parse.GetValue(layers)!);
             var maxEpochs = parse.GetValue(epochs) is >= 1 and <= 100_000 ? parse.GetValue(epochs) : throw new UsageException("--epochs must be between 1 and 100000");
+            var networkOptions = WithFourier(new NetworkOptions { Hidden = hidden, Epochs = maxEpochs, Seed = (ulong)parse.GetValue(seed) }, parse, fourier, fourierScale);
             using var store = atlas.Open(parse);
             var snapshot = atlas.Load(parse, store, parse.GetValue(version));
             var all = SampleSet.From(snapshot);
@@ -66,11 +68,11 @@ internal static class LearnCommand
             var kind = parse.GetValue(choice.Model)!;
             if (kind == "net")
             {
-                var options = new NetworkOptions { Hidden = hidden, Epochs = maxEpochs, Seed = (ulong)parse.GetValue(seed) };
+                var options = networkOptions;
                 var (network, history) = NetworkTrainer.Train(training.Points, training.Labels, training.Dimension, options);
                 description = string.Create(
                     CultureInfo.InvariantCulture,
-                    $"layers={string.Join(',', hidden)};epochs={history.Count};seed={options.Seed};best validation loss {history.Min(h => h.ValidationLoss):E2}");
+                    $"layers={string.Join(',', hidden)};fourier={options.FourierFeatures}x{options.FourierScale};epochs={history.Count};seed={options.Seed};best validation loss {history.Min(h => h.ValidationLoss):E2}");
                 var trained = new NetworkClassifier(network, description);
                 classifier = trained;
                 model = trained.ToModel(snapshot.Family.Parameters, snapshot.Version.Version);
@@ -127,6 +129,23 @@ internal static class LearnCommand
             return CommandLine.Success;
         });
         return command;
+    }
+
+    /// <summary><c>--fourier M</c> and <c>--fourier-scale S</c>, shared with <c>fiber study</c>.</summary>
+    internal static (Option<int> Count, Option<double> Scale) FourierOptions() => (
+        new Option<int>("--fourier") { Description = "Fourier features of the inputs for the network (0: plain coordinates).", DefaultValueFactory = _ => 0 },
+        new Option<double>("--fourier-scale") { Description = "Spread of the Fourier features' frequencies.", DefaultValueFactory = _ => 2 });
+
+    /// <summary>The network options with the checked Fourier-feature settings.</summary>
+    internal static NetworkOptions WithFourier(NetworkOptions options, ParseResult parse, Option<int> count, Option<double> scale)
+    {
+        var features = parse.GetValue(count);
+        var spread = parse.GetValue(scale);
+        return options with
+        {
+            FourierFeatures = features is >= 0 and <= 1024 ? features : throw new UsageException($"--fourier must be between 0 and 1024, got {features}"),
+            FourierScale = spread is > 0 and <= 100 ? spread : throw new UsageException($"--fourier-scale must be in (0, 100], got {spread}"),
+        };
     }
 
     internal static int[] Layers(string text)

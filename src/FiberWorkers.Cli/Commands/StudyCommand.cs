@@ -25,13 +25,14 @@ internal static class StudyCommand
         var network = new Option<bool>("--network") { Description = "Also train and test the feedforward network (slower)." };
         var layers = new Option<string>("--layers") { Description = "Network hidden layers.", DefaultValueFactory = _ => "64,64" };
         var epochs = new Option<int>("--epochs") { Description = "Network epochs.", DefaultValueFactory = _ => 300 };
+        var (fourier, fourierScale) = LearnCommand.FourierOptions();
         var tiles = new Option<string>("--tiles") { Description = "Tiles per axis for the sweep (auto: 8 per axis in 1-2 parameters, 4 in more).", DefaultValueFactory = _ => "auto" };
         var lines = new Option<int>("--lines") { Description = "Lines per tile for the sweep.", DefaultValueFactory = _ => 200 };
         var delta = new Option<double>("--delta") { Description = "Near-boundary offset (fraction of a tile) for the sweep.", DefaultValueFactory = _ => 0.1 };
         var seed = new Option<long>("--seed") { Description = "Seed of the sweep and the splits.", DefaultValueFactory = _ => 1 };
         var command = new Command("study", "Measure how the kind of training samples affects classifier accuracy near the discriminant locus.");
         command.Arguments.Add(input);
-        foreach (var option in new Option[] { example, outDirectory, network, layers, epochs, tiles, lines, delta, seed })
+        foreach (var option in new Option[] { example, outDirectory, network, layers, epochs, fourier, fourierScale, tiles, lines, delta, seed })
         {
             command.Options.Add(option);
         }
@@ -77,7 +78,8 @@ internal static class StudyCommand
             {
                 Seed = (ulong)Math.Max(0, parse.GetValue(seed)),
                 Network = parse.GetValue(network),
-                NetworkOptions = new NetworkOptions { Hidden = LearnCommand.Layers(parse.GetValue(layers)!), Epochs = parse.GetValue(epochs) },
+                NetworkOptions = LearnCommand.WithFourier(
+                    new NetworkOptions { Hidden = LearnCommand.Layers(parse.GetValue(layers)!), Epochs = parse.GetValue(epochs) }, parse, fourier, fourierScale),
             };
             IReadOnlyList<StudyRow> rows;
             try

@@ -55,6 +55,9 @@ public sealed class LearnAndLabelCommandTests : IDisposable
     [InlineData("--layers", "a")]
     [InlineData("--holdout", "0.95")]
     [InlineData("--k", "0")]
+    [InlineData("--fourier", "-1")]
+    [InlineData("--fourier", "2000")]
+    [InlineData("--fourier-scale", "0")]
     public async Task Bad_learning_options_are_usage_errors(string option, string value)
     {
         var atlas = await ReactionAtlas();
