@@ -11,23 +11,7 @@ public sealed class FeedforwardNetworkTests
         int[] sizes = [3, 5, 4, 3];
         var parameters = Enumerable.Range(0, FeedforwardNetwork.ParameterCount(sizes)).Select(_ => random.NextDouble() - 0.5).ToArray();
         var network = new FeedforwardNetwork(sizes, parameters, [0, 2, 4]);
-        var workspace = network.CreateWorkspace();
-        double[] input = [0.2, 0.7, 0.4];
-        const int target = 1;
-        var gradient = new double[parameters.Length];
-        NetworkTrainer.Backpropagate(network, input, target, workspace, gradient);
-        const double h = 1e-6;
-        for (var p = 0; p < parameters.Length; p++)
-        {
-            var saved = parameters[p];
-            parameters[p] = saved + h;
-            var plus = -Math.Log(network.Probabilities(input, workspace)[target]);
-            parameters[p] = saved - h;
-            var minus = -Math.Log(network.Probabilities(input, workspace)[target]);
-            parameters[p] = saved;
-            var numeric = (plus - minus) / (2 * h);
-            Assert.True(Math.Abs(numeric - gradient[p]) <= 1e-7 + (1e-5 * Math.Abs(numeric)), $"parameter {p}: backpropagation {gradient[p]}, finite difference {numeric}");
-        }
+        AssertGradientsMatchFiniteDifferences(network, parameters, [0.2, 0.7, 0.4], target: 1);
     }
 
     [Fact]
@@ -39,14 +23,7 @@ public sealed class FeedforwardNetworkTests
         var (network, history) = NetworkTrainer.Train(inputs, labels, 2, new NetworkOptions { Hidden = [32, 32], Epochs = 150, Seed = 4 });
         Assert.True(history.Count >= 10);
         var (test, truth) = CubicSamples(random, 10_000);
-        var workspace = network.CreateWorkspace();
-        var correct = 0;
-        for (var i = 0; i < truth.Length; i++)
-        {
-            correct += network.Classify(test.AsSpan(2 * i, 2), workspace) == truth[i] ? 1 : 0;
-        }
-
-        Assert.True(correct >= 0.995 * truth.Length, $"accuracy {(double)correct / truth.Length:P2}");
+        AssertAccuracyAtLeast(network, test, truth, 0.995);
     }
 
     [Fact]
@@ -86,23 +63,7 @@ public sealed class FeedforwardNetworkTests
         var parameters = Enumerable.Range(0, FeedforwardNetwork.ParameterCount(sizes)).Select(_ => random.NextDouble() - 0.5).ToArray();
         var network = new FeedforwardNetwork(sizes, parameters, [0, 2, 4], frequencies);
         Assert.Equal(3, network.InputDimension);
-        var workspace = network.CreateWorkspace();
-        double[] input = [0.2, 0.7, 0.4];
-        const int target = 2;
-        var gradient = new double[parameters.Length];
-        NetworkTrainer.Backpropagate(network, input, target, workspace, gradient);
-        const double h = 1e-6;
-        for (var p = 0; p < parameters.Length; p++)
-        {
-            var saved = parameters[p];
-            parameters[p] = saved + h;
-            var plus = -Math.Log(network.Probabilities(input, workspace)[target]);
-            parameters[p] = saved - h;
-            var minus = -Math.Log(network.Probabilities(input, workspace)[target]);
-            parameters[p] = saved;
-            var numeric = (plus - minus) / (2 * h);
-            Assert.True(Math.Abs(numeric - gradient[p]) <= 1e-7 + (1e-5 * Math.Abs(numeric)), $"parameter {p}: backpropagation {gradient[p]}, finite difference {numeric}");
-        }
+        AssertGradientsMatchFiniteDifferences(network, parameters, [0.2, 0.7, 0.4], target: 2);
     }
 
     [Fact]
@@ -116,14 +77,7 @@ public sealed class FeedforwardNetworkTests
         Assert.Equal(32, network.LayerSizes[0]);
         Assert.Equal(2, network.InputDimension);
         var (test, truth) = CubicSamples(random, 10_000);
-        var workspace = network.CreateWorkspace();
-        var correct = 0;
-        for (var i = 0; i < truth.Length; i++)
-        {
-            correct += network.Classify(test.AsSpan(2 * i, 2), workspace) == truth[i] ? 1 : 0;
-        }
-
-        Assert.True(correct >= 0.995 * truth.Length, $"accuracy {(double)correct / truth.Length:P2}");
+        AssertAccuracyAtLeast(network, test, truth, 0.995);
         var (small, smallLabels) = CubicSamples(new Random(2), 400);
         var quick = options with { Hidden = [8], Epochs = 10 };
         var one = NetworkTrainer.Train(small, smallLabels, 2, quick with { Threads = 1 }).Network;
@@ -164,6 +118,38 @@ public sealed class FeedforwardNetworkTests
         var notFinite = model.Clone();
         notFinite.FourierFrequencies[0] = double.NaN;
         Assert.Throws<Algebra.Families.InputException>(() => NetworkClassifier.FromModel(notFinite, "test"));
+    }
+
+    /// <summary>Backpropagation against central finite differences of the cross-entropy, for every parameter.</summary>
+    private static void AssertGradientsMatchFiniteDifferences(FeedforwardNetwork network, double[] parameters, double[] input, int target)
+    {
+        var workspace = network.CreateWorkspace();
+        var gradient = new double[parameters.Length];
+        NetworkTrainer.Backpropagate(network, input, target, workspace, gradient);
+        const double h = 1e-6;
+        for (var p = 0; p < parameters.Length; p++)
+        {
+            var saved = parameters[p];
+            parameters[p] = saved + h;
+            var plus = -Math.Log(network.Probabilities(input, workspace)[target]);
+            parameters[p] = saved - h;
+            var minus = -Math.Log(network.Probabilities(input, workspace)[target]);
+            parameters[p] = saved;
+            var numeric = (plus - minus) / (2 * h);
+            Assert.True(Math.Abs(numeric - gradient[p]) <= 1e-7 + (1e-5 * Math.Abs(numeric)), $"parameter {p}: backpropagation {gradient[p]}, finite difference {numeric}");
+        }
+    }
+
+    private static void AssertAccuracyAtLeast(FeedforwardNetwork network, double[] test, int[] truth, double share)
+    {
+        var workspace = network.CreateWorkspace();
+        var correct = 0;
+        for (var i = 0; i < truth.Length; i++)
+        {
+            correct += network.Classify(test.AsSpan(2 * i, 2), workspace) == truth[i] ? 1 : 0;
+        }
+
+        Assert.True(correct >= share * truth.Length, $"accuracy {(double)correct / truth.Length:P2}");
     }
 
     private static (double[] Inputs, int[] Labels) CubicSamples(Random random, int count)
