@@ -305,6 +305,10 @@ public sealed class FiberSolver
         for (var i = 0; i < paths.Length; i++)
         {
             paths[i] = RefineEndpoint(paths[i], point, newton);
+            if (Options.RetrackFailed && paths[i].Status == PathStatus.Failed)
+            {
+                paths[i] = RefineEndpoint(retrack(i, TrackerOptions.Tight), point, newton) with { Retracked = true };
+            }
         }
 
         // Path jumping: regular solutions of a square system each attract exactly one path of these homotopies,

@@ -24,6 +24,13 @@ public sealed record SolveOptions
     /// <summary>A total-degree solve with more paths than this is refused. Default 200,000.</summary>
     public long MaxPaths { get; init; } = 200_000;
 
+    /// <summary>
+    /// Re-track every failed path once with <see cref="TrackerOptions.Tight"/> before the solve is judged. Worth it
+    /// where a fast, loose <see cref="Tracker"/> is used and a lost path costs more than a slow one (the fold systems
+    /// of a sweep: a lost path is a missed crossing). Default false.
+    /// </summary>
+    public bool RetrackFailed { get; init; }
+
     /// <summary>Two regular endpoints closer than this (relative) are the same solution. Default 1e-8.</summary>
     public double DuplicateTolerance { get; init; } = 1e-8;
 }

@@ -61,4 +61,26 @@ public sealed class ParameterHomotopyTests
 
         SolutionSets.AssertSame(start.Solutions, [.. fiber.Solutions.Select(s => s.Values)], 1e-12, "p = p₀");
     }
+
+    [Fact]
+    public void Failed_paths_are_tracked_again_with_the_tight_settings_when_asked()
+    {
+        // A step budget of three cannot carry a path across the box, so every path fails with the loose tracker;
+        // with RetrackFailed each is run again with the tight settings and the fiber comes out whole.
+        var family = TestFamilies.Example("microgrid3");
+        var solver = new FiberSolver(family.System, SolveOptions.Default with { MaxDegreeOfParallelism = 1 });
+        var start = solver.CreateStartFiber(family.ContentHash, family.Parameters);
+        Complex[] point = [.. family.Parameters.Select(p => (Complex)(p.Low + (0.3 * p.Width)))];
+        var starved = SolveOptions.Default with { MaxDegreeOfParallelism = 1, Tracker = SolveOptions.Default.Tracker with { MaxSteps = 3 } };
+
+        var lossy = new FiberSolver(family.System, starved).Solve(start, point);
+        var retracked = new FiberSolver(family.System, starved with { RetrackFailed = true }).Solve(start, point);
+        var reference = solver.Solve(start, point);
+
+        Assert.Equal(start.RootCount, lossy.StatusCounts[PathStatus.Failed]);
+        Assert.Equal(0, retracked.StatusCounts[PathStatus.Failed]);
+        Assert.All(retracked.Paths, p => Assert.True(p.Retracked));
+        SolutionSets.AssertSame(
+            [.. reference.Solutions.Select(s => s.Values)], [.. retracked.Solutions.Select(s => s.Values)], 1e-10, "retracked fiber");
+    }
 }
