@@ -24,7 +24,17 @@ public sealed class CompiledSystem
         _values = values;
         _jacobian = jacobian;
         _full = full;
+
+        // The directional derivative adds each ∂f_i/∂p_k entry into row i with weight direction[k]; the (i, k) of every
+        // entry is fixed, so it is split here once instead of by an integer division per entry and call.
+        var outputs = full.ParameterJacobian?.Outputs ?? [];
+        var m = Math.Max(1, system.ParameterCount);
+        _alongEquation = [.. outputs.Select(o => o.Target / m)];
+        _alongParameter = [.. outputs.Select(o => o.Target % m)];
     }
+
+    private readonly int[] _alongEquation;
+    private readonly int[] _alongParameter;
 
     /// <summary>The system this evaluator was compiled from.</summary>
     public PolynomialSystem System { get; }
@@ -108,13 +118,12 @@ public sealed class CompiledSystem
         }
 
         directionalDerivative.Clear();
-        var m = ParameterCount;
         var terms = block.Terms;
-        foreach (ref readonly var output in block.Outputs.AsSpan())
+        var outputs = block.Outputs.AsSpan();
+        for (var o = 0; o < outputs.Length; o++)
         {
-            var entry = Combine(in output, terms, registers);
-            var equation = output.Target / m;
-            directionalDerivative[equation] += entry * direction[output.Target - (equation * m)];
+            var entry = Combine(in outputs[o], terms, registers);
+            directionalDerivative[_alongEquation[o]] += entry * direction[_alongParameter[o]];
         }
     }
 
