@@ -1,4 +1,6 @@
+using System.Numerics;
 using FiberWorkers.Algebra.Families;
+using FiberWorkers.Algebra.Polynomials;
 using FiberWorkers.Atlas.Crossings;
 using FiberWorkers.Solving.Fibers;
 using FiberWorkers.Solving.StartFibers;
@@ -84,22 +86,21 @@ public sealed class SweepContext
             () => StartFiberFactory.Create(family.System, family.ContentHash, family.Parameters, options.StartMethod, solve, rootCountHint: family.RootCount));
         var homogeneousLength = family.Unknowns.Count + 1;
         var m = family.Parameters.Count;
+
+        // A line family's start fiber: its generic fiber without the family's own ends at infinity, moved onto the fixed charts.
+        StartFiberResult LineStart(
+            PolynomialSystem system, string hash, Func<StartFiberResult, int, StartFiberResult> keep, Func<Complex[], Complex[]> charts)
+        {
+            var generic = keep(StartFiberFactory.Create(system, hash, null, StartFiberMethod.Auto, solve), homogeneousLength);
+            return keep(OntoCharts(generic, new FiberSolver(system, solve), charts), homogeneousLength);
+        }
+
         var foldStart = Obtain(
             "folds",
-            () => WithoutEulerEnds(
-                OntoCharts(
-                    WithoutEulerEnds(StartFiberFactory.Create(lines.Folds, FoldHash(family.ContentHash, options), null, StartFiberMethod.Auto, solve), homogeneousLength),
-                    new FiberSolver(lines.Folds, solve),
-                    p => lines.FoldParameters(p[..m], p[m..(2 * m)])),
-                homogeneousLength));
+            () => LineStart(lines.Folds, FoldHash(family.ContentHash, options), WithoutEulerEnds, p => lines.FoldParameters(p[..m], p[m..(2 * m)])));
         var passageStart = Obtain(
             "passages",
-            () => WithinChart(
-                OntoCharts(
-                    WithinChart(StartFiberFactory.Create(lines.Passages, PassageHash(family.ContentHash, options), null, StartFiberMethod.Auto, solve), homogeneousLength),
-                    new FiberSolver(lines.Passages, solve),
-                    p => lines.PassageParameters(p[..m], p[m..(2 * m)])),
-                homogeneousLength));
+            () => LineStart(lines.Passages, PassageHash(family.ContentHash, options), WithinChart, p => lines.PassageParameters(p[..m], p[m..(2 * m)])));
         return new SweepContext(family, options, familyStart, foldStart, passageStart, decisions);
     }
 
@@ -126,7 +127,7 @@ public sealed class SweepContext
     /// that leave it diverge there (solutions that exist only for other charts) and are dropped; if any path fails the
     /// fiber is kept where it was, complete but slower.
     /// </summary>
-    private static StartFiberResult OntoCharts(StartFiberResult result, FiberSolver solver, Func<System.Numerics.Complex[], System.Numerics.Complex[]> target)
+    private static StartFiberResult OntoCharts(StartFiberResult result, FiberSolver solver, Func<Complex[], Complex[]> target)
     {
         var fiber = result.Fiber;
         if (fiber.RootCount == 0)
