@@ -57,10 +57,14 @@ internal static class BenchCommand
                 writer.WriteString("family", family.Name);
                 writer.WriteString("options", options.CanonicalText);
                 writer.WriteNumber("tiles", times.Tiles);
+                writer.WriteNumber("runs", times.Runs);
+                writer.WriteNumber("warmupSeconds", ClusterBenchmark.WarmupTime.TotalSeconds);
                 writer.WriteNumber("embeddedSeconds", Math.Round(times.Embedded, 3));
+                writer.WriteNumber("embeddedOneThreadSeconds", Math.Round(times.EmbeddedOneThread, 3));
                 writer.WriteNumber("oneWorkerSeconds", Math.Round(times.OneWorker, 3));
                 writer.WriteNumber("twoWorkersSeconds", Math.Round(times.TwoWorkers, 3));
                 writer.WriteNumber("twoOverOne", Math.Round(times.OneWorker / times.TwoWorkers, 3));
+                writer.WriteNumber("embeddedTwoThreadsOverOne", Math.Round(times.EmbeddedOneThread / times.Embedded, 3));
                 writer.WriteNumber("clusterOverhead", Math.Round((times.TwoWorkers / times.Embedded) - 1, 3));
                 writer.WriteBoolean("sameContentHash", times.SameContent);
                 writer.WriteStartObject("coordinator");

@@ -24,32 +24,71 @@ namespace FiberWorkers.Cli.Commands;
 /// </summary>
 internal static class ClusterBenchmark
 {
-    public sealed record SweepTimes(double Embedded, double OneWorker, double TwoWorkers, int Tiles, bool SameContent);
+    /// <summary>
+    /// Tile-phase seconds summed over <see cref="Runs"/> sweeps (seeds s, s+1, s+2) for each way of running them; the
+    /// embedded sweep on one thread is the machine's own scaling from one core to two, the reference for the workers'.
+    /// </summary>
+    public sealed record SweepTimes(double Embedded, double EmbeddedOneThread, double OneWorker, double TwoWorkers, int Tiles, int Runs, bool SameContent);
 
-    /// <summary>Seconds of the tile phase (from the first tile to the commit) for the three ways of running a sweep.</summary>
+    /// <summary>Timed sweeps per configuration (consecutive seeds); their tile phases are summed.</summary>
+    public const int Runs = 3;
+
+    /// <summary>
+    /// Warm-up before timing a configuration: sweeps at other seeds until this long has passed (and at least two).
+    /// Fresh worker processes need more than one sweep: their first tiles run tier-0 and instrumented code, and on two
+    /// busy cores the JIT's background thread competes with the tiles (measured 12-02 on the three-bus microgrid:
+    /// second sweep 5.3 s, third and later 3.5–3.7 s; the same first sweep with tiering off 3.6 s).
+    /// </summary>
+    public static readonly TimeSpan WarmupTime = TimeSpan.FromSeconds(10);
+
+    /// <summary>Seconds of the tile phase (from the first tile to the commit) for the ways of running a sweep.</summary>
     public static async Task<SweepTimes> SweepAsync(FamilyDefinition family, SweepOptions options, CancellationToken cancellation)
     {
         using var directory = new BenchDirectory();
-        double embedded;
-        string hash;
-        int tiles;
         using (var store = SqliteAtlasStore.Open(directory.File("warmup.db")))
         {
-            new SweepRunner(store).Run(family, Warmup(options) with { MaxDegreeOfParallelism = 2 }, null, cancellation);
+            await WarmAsync(cancellation, seed =>
+            {
+                new SweepRunner(store).Run(family, options with { Seed = seed, MaxDegreeOfParallelism = 2 }, null, cancellation);
+                return Task.CompletedTask;
+            }).ConfigureAwait(false);
         }
 
-        using (var store = SqliteAtlasStore.Open(directory.File("embedded.db")))
+        (double Seconds, string[] Hashes, int Tiles) Embedded(int threads)
         {
-            var phase = new PhaseClock();
-            var summary = new SweepRunner(store).Run(family, options with { MaxDegreeOfParallelism = 2 }, phase, cancellation);
-            embedded = phase.Seconds;
-            hash = summary.ContentHash;
-            tiles = summary.Tiles;
+            var seconds = 0.0;
+            var hashes = new string[Runs];
+            var tiles = 0;
+            for (var run = 0; run < Runs; run++)
+            {
+                using var store = SqliteAtlasStore.Open(directory.File($"embedded-{threads}-{run}.db"));
+                var phase = new PhaseClock();
+                var summary = new SweepRunner(store).Run(family, options with { Seed = options.Seed + (ulong)run, MaxDegreeOfParallelism = threads }, phase, cancellation);
+                seconds += phase.Seconds;
+                hashes[run] = summary.ContentHash;
+                tiles = summary.Tiles;
+            }
+
+            return (seconds, hashes, tiles);
         }
 
-        var one = await ClusterRunAsync(family, options, 1, directory.File("one.db"), cancellation).ConfigureAwait(false);
-        var two = await ClusterRunAsync(family, options, 2, directory.File("two.db"), cancellation).ConfigureAwait(false);
-        return new SweepTimes(embedded, one.Seconds, two.Seconds, tiles, one.Hash == hash && two.Hash == hash);
+        var two = Embedded(2);
+        var single = Embedded(1);
+        var oneWorker = await ClusterRunAsync(family, options, 1, directory.File("one.db"), cancellation).ConfigureAwait(false);
+        var twoWorkers = await ClusterRunAsync(family, options, 2, directory.File("two.db"), cancellation).ConfigureAwait(false);
+        var same = new[] { single.Hashes, oneWorker.Hashes, twoWorkers.Hashes }.All(h => h.SequenceEqual(two.Hashes, StringComparer.Ordinal));
+        return new SweepTimes(two.Seconds, single.Seconds, oneWorker.Seconds, twoWorkers.Seconds, two.Tiles, Runs, same);
+    }
+
+    /// <summary>Runs <paramref name="sweep"/> at seeds 1000, 1001, ... until <see cref="WarmupTime"/> has passed and at least two ran.</summary>
+    private static async Task WarmAsync(CancellationToken cancellation, Func<ulong, Task> sweep)
+    {
+        var clock = Stopwatch.StartNew();
+        for (ulong seed = 1000; seed < 1002 || clock.Elapsed < WarmupTime; seed++)
+        {
+            cancellation.ThrowIfCancellationRequested();
+            await sweep(seed).ConfigureAwait(false);
+        }
     }
 
     /// <summary>
@@ -156,9 +195,6 @@ internal static class ClusterBenchmark
 
     public sealed record AskLoad(int Answered, int Refused, int Failed, double PerSecond, double P50Microseconds, double P99Microseconds, IReadOnlyDictionary<string, int> Methods);
 
-    /// <summary>The same sweep at another seed: same work, different atlas content.</summary>
-    private static SweepOptions Warmup(SweepOptions options) => options with { Seed = options.Seed + 1000 };
-
     private static SubmitSweepRequest ClusterRequest(FamilyDefinition family, SweepOptions options) => new()
     {
         FamilyJson = JsonFormatter.Default.Format(family.Message),
@@ -166,7 +202,7 @@ internal static class ClusterBenchmark
         Source = family.Name,
     };
 
-    private static async Task<(double Seconds, string Hash)> ClusterRunAsync(FamilyDefinition family, SweepOptions options, int workers, string file, CancellationToken cancellation)
+    private static async Task<(double Seconds, string[] Hashes)> ClusterRunAsync(FamilyDefinition family, SweepOptions options, int workers, string file, CancellationToken cancellation)
     {
         using var log = new Serilog.LoggerConfiguration().CreateLogger();
         using var ledger = SqliteAtlasStore.Open(file);
@@ -189,12 +225,21 @@ internal static class ClusterBenchmark
                     await Task.Delay(50, cancellation).ConfigureAwait(false);
                 }
 
-                // Fresh processes run tier-0 code for their first seconds: a warm-up sweep (another seed) first, so the
-                // timed sweep measures steady-state workers, as a long-running cluster has.
-                await client.SweepAsync(ClusterRequest(family, Warmup(options)), new Relay(new PhaseClock()), cancellation).ConfigureAwait(false);
-                var phase = new PhaseClock();
-                var outcome = await client.SweepAsync(ClusterRequest(family, options), new Relay(phase), cancellation).ConfigureAwait(false);
-                return (phase.Seconds, outcome.ContentHash);
+                // Fresh processes run tier-0 code for their first seconds: warm-up sweeps (other seeds) first, so the
+                // timed sweeps measure steady-state workers, as a long-running cluster has.
+                await WarmAsync(cancellation, seed => client.SweepAsync(ClusterRequest(family, options with { Seed = seed }), new Relay(new PhaseClock()), cancellation)).ConfigureAwait(false);
+
+                var seconds = 0.0;
+                var hashes = new string[Runs];
+                for (var run = 0; run < Runs; run++)
+                {
+                    var phase = new PhaseClock();
+                    var outcome = await client.SweepAsync(ClusterRequest(family, options with { Seed = options.Seed + (ulong)run }), new Relay(phase), cancellation).ConfigureAwait(false);
+                    seconds += phase.Seconds;
+                    hashes[run] = outcome.ContentHash;
+                }
+
+                return (seconds, hashes);
             }
             finally
             {
