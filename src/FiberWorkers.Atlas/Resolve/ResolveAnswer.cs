@@ -26,7 +26,10 @@ public sealed record ResolveAnswer
     /// <summary>True when the point lies outside the atlas's box (then it is always solved in full).</summary>
     public bool OutsideBox { get; init; }
 
-    /// <summary>The sample real-only tracking started from, when it succeeded.</summary>
+    /// <summary>
+    /// Where the answer's paths started: the sample real-only tracking started from, or for a full solve the fiber the
+    /// parameter homotopy started from (the relay fiber of the point's cell, or the family's start fiber).
+    /// </summary>
     public string? StartSample { get; init; }
 
     /// <summary>Why each rejected attempt was rejected, in order (empty when the first attempt was accepted).</summary>

@@ -22,13 +22,17 @@ namespace FiberWorkers.Atlas.Resolve;
 /// prove the label low). When a pair of paths meets a fold, the same sample's real solutions are tracked again around
 /// it through complex parameters and what arrives certified real is accepted once a neighbour holding that count
 /// reaches the same solutions from its own side (<see cref="ResolveOptions.TwoSided"/>). Otherwise a few more samples
-/// are tried, then the parameter homotopy from the start fiber solves in full. What the fast path cannot see: a pair
+/// are tried, then the parameter homotopy solves in full, all N paths, from the relay fiber of the query's cell (see
+/// <see cref="ResolveOptions.RelayDivisions"/>) or the family's start fiber. What the fast path cannot see: a pair
 /// of complex solutions of the start sample turning real between it and the query (neither real-only tracking nor the
 /// detour carries them); the neighbourhood, crossing and margin checks guard against it only as far as the atlas has
 /// sampled that part of the locus.
 /// </summary>
 public sealed class Resolver
 {
+    /// <summary>What a full answer from the family's start fiber names as its start.</summary>
+    private const string StartFiberName = "family's start fiber";
+
     private readonly AtlasSnapshot _snapshot;
     private readonly FiberSolver _solver;
     private readonly StartFiber _start;
@@ -41,6 +45,9 @@ public sealed class Resolver
     private readonly KdTree? _crossingTree;
     private readonly double[] _detour;
     private readonly double[] _clearance;
+    private readonly int _relayDivisions;
+    private readonly FiberSolver _relaySolver;
+    private readonly Lazy<StartFiber?>[] _relays;
 
     public Resolver(AtlasSnapshot snapshot, FiberSolver solver, StartFiber start, RegionClassifier? classifier = null, ResolveOptions? options = null)
     {
@@ -80,6 +87,16 @@ public sealed class Resolver
         for (var k = 0; k < _detour.Length; k++)
         {
             _detour[k] /= Math.Sqrt(norm);
+        }
+
+        _relaySolver = new FiberSolver(solver.System, solver.Options with { Tracker = Detour });
+        _relayDivisions = RelayDivisions(_options.RelayDivisions, _samples.Dimension);
+        var cells = _relayDivisions == 0 ? 0 : (int)Math.Pow(_relayDivisions, _samples.Dimension);
+        _relays = new Lazy<StartFiber?>[cells];
+        for (var c = 0; c < cells; c++)
+        {
+            var cell = c;
+            _relays[c] = new Lazy<StartFiber?>(() => Relay(cell), LazyThreadSafetyMode.ExecutionAndPublication);
         }
     }
 
@@ -372,10 +389,11 @@ public sealed class Resolver
 
     private ResolveAnswer Full(Complex[] target, int predicted, bool outside, List<string> rejections, int paths)
     {
-        var solution = _solver.Solve(_start, target);
+        var (solution, from) = outside ? (_solver.Solve(_start, target), StartFiberName) : SolveNear(target, ref paths);
         return new ResolveAnswer
         {
             Method = "full",
+            StartSample = from,
             RealCount = solution.RealCount,
             Certified = solution.RealCountCertified,
             AtlasVersion = _snapshot.Version.Version,
@@ -385,6 +403,83 @@ public sealed class Resolver
             Rejections = rejections,
             PathsTracked = paths + solution.PathsTracked,
         };
+    }
+
+    /// <summary>
+    /// The full solve of a point inside the box from the relay fiber of its cell: the same parameter homotopy with all N
+    /// paths, from a start fiber nearer than the family's. When the relay is not complete, or a path from it does not
+    /// arrive, the family's start fiber solves instead (the paths tried are counted).
+    /// </summary>
+    private (FiberSolution Solution, string From) SolveNear(Complex[] target, ref int paths)
+    {
+        var cell = _relays.Length > 0 ? Cell(target) : -1;
+        if (cell >= 0 && _relays[cell].Value is { } relay)
+        {
+            var near = _relaySolver.Solve(relay, target);
+            if (near.Paths.All(p => p.Status == PathStatus.Regular) && near.RootCount == relay.RootCount)
+            {
+                return (near, string.Create(CultureInfo.InvariantCulture, $"relay fiber of cell {cell + 1} of {_relays.Length}"));
+            }
+
+            paths += near.PathsTracked;
+        }
+
+        return (_solver.Solve(_start, target), StartFiberName);
+    }
+
+    /// <summary>The relay cell holding a point of the box (row-major over the box-normalized grid).</summary>
+    private int Cell(Complex[] point)
+    {
+        var cell = 0;
+        for (var k = 0; k < point.Length; k++)
+        {
+            var box = _samples.Box[k];
+            var along = (int)Math.Floor((point[k].Real - box.Low) / box.Width * _relayDivisions);
+            cell = (cell * _relayDivisions) + Math.Clamp(along, 0, _relayDivisions - 1);
+        }
+
+        return cell;
+    }
+
+    /// <summary>
+    /// The fiber over a cell's relay point: its centre moved off the real plane by up to half the cell's width in each
+    /// parameter (a fixed pseudo-random direction per cell, so answers do not depend on the order of queries), reached
+    /// from the family's start fiber. Null when that solve does not find all N solutions regular.
+    /// </summary>
+    private StartFiber? Relay(int cell)
+    {
+        var dimension = _samples.Dimension;
+        var random = new Solving.Randomness.SeededRandom(Solving.Randomness.SeededRandom.Derive(0x5eed_ce11, (ulong)cell));
+        var point = new Complex[dimension];
+        var rest = cell;
+        for (var k = dimension - 1; k >= 0; k--)
+        {
+            var box = _samples.Box[k];
+            var width = box.Width / _relayDivisions;
+            var index = rest % _relayDivisions;
+            rest /= _relayDivisions;
+            point[k] = new Complex(box.Low + ((index + 0.5) * width), 0.5 * width * random.NextDouble(-1, 1));
+        }
+
+        var solution = _solver.Solve(_start, point);
+        if (!solution.Paths.All(p => p.Status == PathStatus.Regular) || solution.RootCount != _start.RootCount)
+        {
+            return null;
+        }
+
+        return new StartFiber(_start.FamilyHash, _start.Unknowns, point, [.. solution.Solutions.Select(s => s.Values)], _start.Provenance);
+    }
+
+    /// <summary>Relay cells per axis: the option, lowered until there are at most 4,096 cells.</summary>
+    private static int RelayDivisions(int wanted, int dimension)
+    {
+        var divisions = Math.Max(wanted, 0);
+        while (divisions > 1 && Math.Pow(divisions, dimension) > 4096)
+        {
+            divisions--;
+        }
+
+        return divisions;
     }
 
     private ResolveAnswer Verify(ResolveAnswer fast, Complex[] target)

@@ -175,7 +175,7 @@ internal static class AskCommand
     private static void WriteText(TextWriter output, FamilyDefinition family, double[] point, ResolveAnswer answer)
     {
         output.WriteLine($"at          {ParameterPoint.Format(family, point)}{(answer.OutsideBox ? "  (outside the atlas box: solved in full)" : string.Empty)}");
-        var how = answer.Method == "real-track" ? $"real-only tracking from the {answer.StartSample}" : "a full solve (parameter homotopy from the start fiber)";
+        var how = answer.Method == "real-track" ? $"real-only tracking from the {answer.StartSample}" : $"a full solve (parameter homotopy from the {answer.StartSample ?? "family's start fiber"})";
         output.WriteLine($"method      {answer.Method}: {how}");
         foreach (var rejection in answer.Rejections)
         {

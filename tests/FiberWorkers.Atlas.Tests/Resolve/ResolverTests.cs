@@ -147,6 +147,57 @@ public sealed class ResolverTests
         Assert.True(aroundFold > 0, "no query was answered around a fold");
     }
 
+    [Fact]
+    public void Full_solves_from_relay_fibers_equal_full_solves_from_the_start_fiber()
+    {
+        using var atlas = new TempAtlas("microgrid3-relay");
+        using var store = atlas.Open();
+        var family = TestFamilies.Example("microgrid3");
+        new SweepRunner(store).Run(family, new SweepOptions { Divisions = [4, 4], LinesPerTile = 4, MaxDegreeOfParallelism = 2 });
+        var snapshot = AtlasSnapshot.Load(store, "microgrid3-relay.db");
+
+        // No real-only attempts: every point inside the box is solved in full, from its cell's relay fiber.
+        var relayed = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { Attempts = 0, RelayDivisions = 3 });
+        var direct = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { Attempts = 0, RelayDivisions = 0 });
+        var folds = snapshot.Crossings.Where(c => c.Crossing.Kind == CrossingKind.Fold).Select(c => c.Crossing).ToArray();
+        Assert.NotEmpty(folds);
+        var random = new Random(7);
+        var fromRelays = 0;
+        for (var i = 0; i < 300; i++)
+        {
+            var point = new double[2];
+            for (var k = 0; k < 2; k++)
+            {
+                var p = family.Parameters[k];
+                point[k] = i % 3 == 0
+                    ? Math.Clamp(folds[random.Next(folds.Length)].Point[k] + (2e-3 * p.Width * (random.NextDouble() - 0.5)), p.Low, p.High)
+                    : p.Low + (p.Width * random.NextDouble());
+            }
+
+            var answer = relayed.Ask(point);
+            var reference = relayed.SolveFull(point);
+            Assert.Equal("full", answer.Method);
+            fromRelays += answer.StartSample!.StartsWith("relay fiber", StringComparison.Ordinal) ? 1 : 0;
+            var real = reference.RealSolutions.ToArray();
+            Assert.True(answer.RealCount == real.Length, $"at ({point[0]}, {point[1]}): from the {answer.StartSample} {answer.RealCount} real, from the start fiber {real.Length}");
+            Assert.Equal(answer.Certified, reference.RealCountCertified);
+            foreach (var solution in answer.Solutions)
+            {
+                Assert.Contains(real, r => Distance(r.Values, solution.Values) <= 1e-9 * (1 + Norm(r.Values)));
+            }
+
+            if (i % 10 == 0)
+            {
+                var plain = direct.Ask(point);
+                Assert.Equal("family's start fiber", plain.StartSample);
+                Assert.Equal(real.Length, plain.RealCount);
+            }
+        }
+
+        // A relay that cannot finish hands its point to the start fiber; nearly all must finish.
+        Assert.True(fromRelays >= 290, $"only {fromRelays} of 300 full solves came from relay fibers");
+    }
+
     /// <summary>The cubic over 6×6 tiles with 8 lines each, swept into <paramref name="store"/> and loaded.</summary>
     private static AtlasSnapshot SweepCubic(SqliteAtlasStore store, string file)
     {
