@@ -48,10 +48,39 @@ internal static class CommandLine
             _ => "integer",
         });
 
+    /// <summary>
+    /// A token that looks like an option but was taken as a command's argument (an unknown option where a FAMILY or
+    /// ATLAS argument may stand), or null. The parser would otherwise read it as a file name.
+    /// </summary>
+    private static string? UnknownOption(ParseResult parse) => parse.CommandResult.Children
+        .OfType<System.CommandLine.Parsing.ArgumentResult>()
+        .SelectMany(argument => argument.Tokens)
+        .Select(token => token.Value)
+        .FirstOrDefault(value => value.StartsWith("--", StringComparison.Ordinal) && !File.Exists(value));
+
+    /// <summary>The command names from below the root down to <paramref name="command"/>.</summary>
+    private static IEnumerable<string> Path(System.CommandLine.Parsing.CommandResult command)
+    {
+        var names = new Stack<string>();
+        for (var at = command; at?.Parent is not null; at = at.Parent as System.CommandLine.Parsing.CommandResult)
+        {
+            names.Push(at.Command.Name);
+        }
+
+        return names;
+    }
+
     public static async Task<int> RunAsync(string[] args, TextWriter output, TextWriter error)
     {
         var root = Build(output, error);
         var parse = root.Parse(args);
+        if (UnknownOption(parse) is { } unknown)
+        {
+            await error.WriteLineAsync($"fiber: unknown option '{unknown}' for '{parse.CommandResult.Command.Name}'");
+            await error.WriteLineAsync($"Run 'fiber {string.Join(' ', Path(parse.CommandResult))} --help' for its options.");
+            return BadUsage;
+        }
+
         if (parse.Errors.Count > 0)
         {
             foreach (var problem in parse.Errors)

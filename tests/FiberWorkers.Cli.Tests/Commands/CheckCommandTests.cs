@@ -30,6 +30,20 @@ public sealed class CheckCommandTests
         }
     }
 
+    [Theory]
+    [InlineData("--plaintext", "check", "--example", "cubic", "--plaintext")]
+    [InlineData("--plaintext", "sweep", "--plaintext", "--example", "cubic")]
+    [InlineData("--colour", "solve", "--example", "cubic", "--at", "b=-1,c=0", "--colour")]
+    public async Task An_unknown_option_is_named_as_one_not_read_as_a_family_file(string unknown, params string[] args)
+    {
+        var (code, output, error) = await CliRunner.RunAsync(args);
+        Assert.Equal(2, code);
+        Assert.Equal(string.Empty, output);
+        Assert.Contains($"unknown option '{unknown}' for '{args[0]}'", error, StringComparison.Ordinal);
+        Assert.Contains($"Run 'fiber {args[0]} --help'", error, StringComparison.Ordinal);
+        Assert.DoesNotContain("not both", error, StringComparison.Ordinal);
+    }
+
     [Fact]
     public async Task Check_reads_a_hand_written_file_in_the_documented_format()
     {
