@@ -83,7 +83,8 @@ internal static class MonodromyBenchmark
                 writer.WriteNumber("loops", report.Loops);
                 writer.WriteNumber("segmentTracks", report.SegmentTracks);
                 writer.WriteNumber("finalPaths", report.FinalPaths);
-                writer.WriteNumber("paths", report.SegmentTracks + report.FinalPaths);
+                writer.WriteNumber("tracePaths", report.TracePaths);
+                writer.WriteNumber("paths", report.SegmentTracks + report.FinalPaths + report.TracePaths);
                 writer.WriteNumber("failedTracks", report.FailedTracks);
                 writer.WriteBoolean("augmented", report.Augmented);
                 writer.WriteString("completeness", report.Completeness);

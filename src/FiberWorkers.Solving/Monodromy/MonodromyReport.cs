@@ -30,6 +30,9 @@ public sealed record MonodromyReport
     /// <summary>Paths of the final homotopy from the augmented base point to q = 0 (0 when not augmented).</summary>
     public required int FinalPaths { get; init; }
 
+    /// <summary>Paths of the trace test's pencils, over every run of the test (two per known solution each time).</summary>
+    public long TracePaths { get; init; }
+
     /// <summary><c>expected-count</c>, <c>trace-test</c> or <c>stopping-rule</c>.</summary>
     public required string Completeness { get; init; }
 

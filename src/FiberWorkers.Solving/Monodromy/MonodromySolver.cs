@@ -95,6 +95,7 @@ internal sealed class MonodromySolver
         var stall = phase.Stall;
         var trace = phase.Trace;
         var skipped = phase.Skipped;
+        var tracePaths = phase.TracePaths;
         // A complete augmented fiber (the trace test passed) carried to q = 0 with no path failed reaches every
         // isolated solution of the family's fiber (Morgan & Sommese 1989): paths that leave for infinity end at no
         // solution of it. Only failed paths can lose solutions, and only then do loops in the family's own
@@ -116,6 +117,7 @@ internal sealed class MonodromySolver
             stall = own.Stall;
             trace = own.Trace ?? trace;
             skipped = own.Skipped ?? skipped;
+            tracePaths += own.TracePaths;
         }
 
         var completeness = expected is { } count && fiber.Count >= count ? "expected-count"
@@ -133,11 +135,12 @@ internal sealed class MonodromySolver
             Augmented = augmented,
             BaseRootCount = baseCount,
             FinalPaths = finalPaths,
+            TracePaths = tracePaths,
             Completeness = completeness,
             TraceTest = trace,
             TraceTestSkipped = skipped,
         };
-        var note = $"monodromy: {nodes} points joined by {edges} segments ({loopCount} loops), {tracks} segment tracks ({failedTracks} failed), {baseCount} solutions at the "
+        var note = $"monodromy: {nodes} points joined by {edges} segments ({loopCount} loops), {tracks} segment tracks ({failedTracks} failed), {tracePaths} trace-test paths, {baseCount} solutions at the "
             + (augmented ? $"augmented base point, {fiber.Count} after the homotopy to q = 0; " : $"base point; ")
             + completeness switch
             {
@@ -149,7 +152,7 @@ internal sealed class MonodromySolver
                             + "has solutions at infinity on the moving slice, and further loops found nothing new)"
                         : skipped is not null ? $"; trace test not run: {skipped}" : string.Empty),
             };
-        var provenance = new StartFiberProvenance("monodromy", (ulong)_solve.Seed, tracks + finalPaths, completeness, note);
+        var provenance = new StartFiberProvenance("monodromy", (ulong)_solve.Seed, tracks + finalPaths + tracePaths, completeness, note);
         return (new StartFiber(familyHash, _system.Unknowns, parameters, fiber, provenance), report);
     }
 
@@ -234,7 +237,7 @@ internal sealed class MonodromySolver
     }
 
     /// <summary>What one search of a homotopy graph did.</summary>
-    private readonly record struct GraphPhase(int Nodes, int Edges, long Tracks, long Failed, int Stall, TraceTestResult? Trace, string? Skipped)
+    private readonly record struct GraphPhase(int Nodes, int Edges, long Tracks, long Failed, int Stall, TraceTestResult? Trace, string? Skipped, long TracePaths)
     {
         /// <summary>Independent loops of the graph (its cycle rank).</summary>
         public int Loops => Edges - Nodes + 1;
@@ -432,7 +435,7 @@ internal sealed class MonodromySolver
             addedLoops = AddJoinedNode(graph, NewPoint(basis, random, LoopSpread(stalledNodes)), pending, [0, graph.Points.Count - 1]) - 1;
         }
 
-        return new GraphPhase(graph.Points.Count, graph.Edges.Count, tracks, failedTracks, stall, trace, skipped);
+        return new GraphPhase(graph.Points.Count, graph.Edges.Count, tracks, failedTracks, stall, trace, skipped, traceTest.PathsTracked);
     }
 
     /// <summary>

@@ -17,6 +17,9 @@ namespace FiberWorkers.Solving.Monodromy;
 /// </summary>
 internal sealed class TraceTest(PolynomialSystem system, SolveOptions solve, double tolerance)
 {
+    /// <summary>Paths of the pencil tracked by every run so far (one per solution and slice tried).</summary>
+    public long PathsTracked { get; private set; }
+
     public (TraceTestResult? Result, string? Skipped) Run(Complex[] parameters, IReadOnlyList<Complex[]> fiber, SeededRandom random)
     {
         if (fiber.Count == 0)
@@ -42,6 +45,7 @@ internal sealed class TraceTest(PolynomialSystem system, SolveOptions solve, dou
             var homotopy = new PencilHomotopy(curve, parameters, chart, slice, sigmas[k]);
             var moved = new Complex[start.Length][];
             var failed = 0;
+            PathsTracked += start.Length;
             // Paths are independent and summed in index order, so threads do not change the verdict.
             Parallel.For(
                 0,

@@ -134,7 +134,9 @@ public sealed class MonodromySolverTests
         // matched pair took one track in one direction or the other.
         Assert.Equal("trace-test", report.Completeness);
         Assert.True(report.SegmentTracks >= (long)report.Edges * report.BaseRootCount, $"{report.SegmentTracks} tracks, {report.Edges} edges");
-        Assert.Equal(report.SegmentTracks + report.FinalPaths, fiber.Provenance.PathsTracked);
+        // The passing trace test alone tracked two paths per solution.
+        Assert.True(report.TracePaths >= 2L * report.BaseRootCount, $"{report.TracePaths} trace-test paths for {report.BaseRootCount} solutions");
+        Assert.Equal(report.SegmentTracks + report.FinalPaths + report.TracePaths, fiber.Provenance.PathsTracked);
         Assert.Equal((ulong)8_501, fiber.Provenance.Seed);
     }
 

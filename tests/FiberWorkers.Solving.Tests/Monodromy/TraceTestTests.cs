@@ -82,6 +82,7 @@ public sealed class TraceTestTests
         Assert.NotNull(complete);
         Assert.True(complete.Passed, $"complete fiber of {fiber.Count}: relative deviation {complete.RelativeDeviation:E2}");
         Assert.InRange(complete.RelativeDeviation, 0, Tolerance);
+        Assert.Equal(2L * fiber.Count, test.PathsTracked);
 
         // Leave out the first, a middle and the last solution in turn; the same slices (same seed) are used.
         foreach (var removed in new[] { 0, fiber.Count / 2, fiber.Count - 1 })
