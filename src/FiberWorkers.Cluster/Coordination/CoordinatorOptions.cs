@@ -15,6 +15,12 @@ public sealed record CoordinatorOptions
     /// <summary>Deadline of one attempt at a tile; past it the tile goes to another worker.</summary>
     public TimeSpan TileDeadline { get; init; } = TimeSpan.FromMinutes(10);
 
+    /// <summary>
+    /// Tiles sent to a worker beyond its threads, to wait there for one (0 up to <see cref="Contracts.TileLookahead.Depth"/>,
+    /// what a worker accepts). Default <see cref="Contracts.TileLookahead.Depth"/>.
+    /// </summary>
+    public int TileLookahead { get; init; } = Contracts.TileLookahead.Depth;
+
     /// <summary>Attempts at one tile before the sweep fails (it can be resumed by submitting it again).</summary>
     public int MaxTileAttempts { get; init; } = 12;
 

@@ -32,6 +32,7 @@ public sealed class WorkerLink : IDisposable
         Id = id;
         Address = address;
         Threads = threads;
+        Slots = threads + Math.Clamp(options.TileLookahead, 0, TileLookahead.Depth);
         Channel = connect(address);
         Client = new Worker.WorkerClient(Channel);
         LastSeen = DateTimeOffset.UtcNow;
@@ -98,7 +99,7 @@ public sealed class WorkerLink : IDisposable
     {
         get
         {
-            if (IsLost || _draining || Volatile.Read(ref _tilesInFlight) >= Threads)
+            if (IsLost || _draining || Volatile.Read(ref _tilesInFlight) >= Slots)
             {
                 return false;
             }
@@ -115,6 +116,9 @@ public sealed class WorkerLink : IDisposable
 
     public int TilesInFlight => Volatile.Read(ref _tilesInFlight);
 
+    /// <summary>Tiles it may hold at once: one per tile thread plus <see cref="CoordinatorOptions.TileLookahead"/> waiting for a thread.</summary>
+    public int Slots { get; }
+
     public int AsksInFlight => Volatile.Read(ref _asksInFlight);
 
     public long TilesDone => Interlocked.Read(ref _tilesDone);
@@ -128,7 +132,7 @@ public sealed class WorkerLink : IDisposable
         while (true)
         {
             var current = Volatile.Read(ref _tilesInFlight);
-            if (current >= Threads || IsLost || _draining)
+            if (current >= Slots || IsLost || _draining)
             {
                 return false;
             }
@@ -376,7 +380,7 @@ public sealed class WorkerPool : IDisposable
                 var candidates = _workers.Values.Where(w => w.Available).ToList();
                 var preferred = candidates.Where(w => !avoid.Contains(w.Id)).ToList();
                 foreach (var link in (preferred.Count > 0 ? preferred : candidates)
-                    .OrderByDescending(w => w.Threads - w.TilesInFlight)
+                    .OrderByDescending(w => w.Slots - w.TilesInFlight)
                     .ThenBy(w => w.Id, StringComparer.Ordinal))
                 {
                     if (link.TryTakeSlot())

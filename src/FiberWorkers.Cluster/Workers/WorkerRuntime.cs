@@ -21,7 +21,7 @@ namespace FiberWorkers.Cluster.Workers;
 /// What a worker does, behind its gRPC service: computes tiles with the sweep code (setups fetched from the
 /// coordinator and cached) and answers resolves from tile shards (fetched and cached, least recently used dropped).
 /// Stateless apart from caches. Tiles run on dedicated threads, so heartbeats and resolves keep flowing while all
-/// tile threads are busy.
+/// tile threads are busy; up to <see cref="TileLookahead.Depth"/> more tiles are taken and wait for a thread.
 /// </summary>
 public sealed class WorkerRuntime
 {
@@ -29,6 +29,8 @@ public sealed class WorkerRuntime
     private readonly Coordinator.CoordinatorClient _coordinator;
     private readonly ILogger _log;
     private readonly SemaphoreSlim _tileSlots;
+    private readonly SemaphoreSlim _tileAdmission;
+    private readonly CancellationTokenSource _stopSignal = new();
     private readonly SemaphoreSlim _resolveSlots;
     private readonly BoundedCache<string, SweepContext> _setups;
     private readonly BoundedCache<(string Atlas, int Version, string Tile, bool Verify), Resolver> _shards;
@@ -49,6 +51,7 @@ public sealed class WorkerRuntime
         _log = log;
         _metrics = metrics;
         _tileSlots = new SemaphoreSlim(options.Threads, options.Threads);
+        _tileAdmission = new SemaphoreSlim(options.Threads + TileLookahead.Depth, options.Threads + TileLookahead.Depth);
         _resolveSlots = new SemaphoreSlim(options.Threads, options.Threads);
         _setups = new BoundedCache<string, SweepContext>(options.SetupCache);
         _shards = new BoundedCache<(string, int, string, bool), Resolver>(options.ShardCache);
@@ -79,6 +82,7 @@ public sealed class WorkerRuntime
     {
         if (Interlocked.Exchange(ref _stopping, 1) == 0)
         {
+            _stopSignal.Cancel();
             _handBack.CancelAfter(HandBackAfter);
         }
     }
@@ -93,11 +97,44 @@ public sealed class WorkerRuntime
             throw StoppingRefusal.Create("worker", $"worker {Id} is stopping: tile {key} not started; give it to another worker");
         }
 
-        if (!await _tileSlots.WaitAsync(0, cancellation).ConfigureAwait(false))
+        if (!await _tileAdmission.WaitAsync(0, cancellation).ConfigureAwait(false))
         {
-            throw new RpcException(new Status(StatusCode.ResourceExhausted, $"worker {Id}: all {_options.Threads} tile threads are busy"));
+            throw new RpcException(new Status(StatusCode.ResourceExhausted,
+                $"worker {Id}: all {_options.Threads} tile threads are busy and {TileLookahead.Depth} more tiles wait"));
         }
 
+        try
+        {
+            // A tile beyond the threads waits here; one still waiting when the worker begins to stop goes back.
+            using var waiting = CancellationTokenSource.CreateLinkedTokenSource(cancellation, _stopSignal.Token);
+            try
+            {
+                await _tileSlots.WaitAsync(waiting.Token).ConfigureAwait(false);
+            }
+            catch (OperationCanceledException) when (IsStopping && !cancellation.IsCancellationRequested)
+            {
+                _metrics?.WorkerTile("returned");
+                throw StoppingRefusal.Create("worker", $"worker {Id} is stopping: tile {key} not started; give it to another worker");
+            }
+
+            try
+            {
+                return await ComputeTileAsync(task, key, cancellation).ConfigureAwait(false);
+            }
+            finally
+            {
+                _tileSlots.Release();
+            }
+        }
+        finally
+        {
+            _tileAdmission.Release();
+        }
+    }
+
+    /// <summary>Computes a tile on a thread of its own, once it holds a tile thread.</summary>
+    private async Task<TileOutcome> ComputeTileAsync(TileTask task, TileKey key, CancellationToken cancellation)
+    {
         Interlocked.Increment(ref _tilesRunning);
         var clock = Stopwatch.StartNew();
         using var work = CancellationTokenSource.CreateLinkedTokenSource(cancellation, _handBack.Token);
@@ -138,7 +175,6 @@ public sealed class WorkerRuntime
         finally
         {
             Interlocked.Decrement(ref _tilesRunning);
-            _tileSlots.Release();
         }
     }
 

@@ -1,6 +1,7 @@
 using System.Diagnostics;
 using FiberWorkers.Atlas.Stores;
 using FiberWorkers.Cluster.Client;
+using FiberWorkers.Cluster.Contracts;
 using FiberWorkers.Cluster.Tests.Support;
 using FiberWorkers.Contracts.V1;
 using Xunit.Abstractions;
@@ -41,12 +42,19 @@ public sealed class GracefulShutdownTests(ITestOutputHelper output)
             Assert.Contains("is stopping: tile", attempt.Detail, StringComparison.Ordinal);
         }
 
-        // The tile in flight at the signal was held until the hand-back point (3/4 of the drain, 1.5 s), then answered
-        // as handed back before the victim exited (not cut off with the connection).
-        var held = Assert.Single(returned, a => a.Started < victimStop.Signal);
+        // The tile running at the signal was held until the hand-back point (3/4 of the drain, 1.5 s), then answered
+        // as handed back before the victim exited (not cut off with the connection). A tile waiting behind it for the
+        // thread (the one-tile lookahead) went back at once, not started.
+        var held = Assert.Single(returned, a => a.Started < victimStop.Signal && a.Detail.Contains("handed back unfinished", StringComparison.Ordinal));
         var answered = held.Started + TimeSpan.FromSeconds(held.Seconds);
         Assert.InRange(answered, victimStop.Signal + TimeSpan.FromSeconds(1), victimStop.Signal + victimStop.Elapsed);
-        Assert.Contains("handed back unfinished", held.Detail, StringComparison.Ordinal);
+        foreach (var queued in returned.Where(a => a.Started < victimStop.Signal && a != held))
+        {
+            Assert.Contains("not started", queued.Detail, StringComparison.Ordinal);
+            Assert.True(queued.Started + TimeSpan.FromSeconds(queued.Seconds) < victimStop.Signal + TimeSpan.FromSeconds(1), $"the waiting tile {queued.TileKey} went back {(queued.Started + TimeSpan.FromSeconds(queued.Seconds) - victimStop.Signal).TotalSeconds:F2} s after the signal");
+        }
+
+        Assert.InRange(returned.Count(a => a.Started < victimStop.Signal), 1, 1 + TileLookahead.Depth);
         output.WriteLine($"victim exited {victimStop.Elapsed.TotalSeconds:F2} s after SIGTERM (drain {drain.TotalSeconds} s); its tile {held.TileKey} was answered as handed back {(answered - victimStop.Signal).TotalSeconds:F2} s after the signal; {returned.Count} returned attempts, {attempts.Count} attempts in all");
 
         Assert.DoesNotContain(attempts, a => a.Worker == "victim" && a.Outcome == "merged");

@@ -81,6 +81,27 @@ public sealed class WorkerLimitTests : IAsyncLifetime
             "resolve in tile L0:1: each solve from the family start fiber tracks 2 paths exceeds the limit max-paths = 1");
     }
 
+    [Fact]
+    public async Task A_one_thread_worker_takes_one_tile_beyond_its_thread_and_refuses_the_next_with_ResourceExhausted()
+    {
+        // Each tile waits 1.5 s on its thread first, so the first runs while the second waits for the thread.
+        var worker = await _cluster.AddWorkerAsync(new WorkerOptions { Coordinator = _cluster.Coordinator.Address, Threads = 1, Id = "lookahead", Fault = "slow:1500" });
+        var client = _cluster.WorkerClient(worker);
+        TileTask Task(string tile) => new() { SweepId = _outcome.SweepId, FamilyHash = Family.ContentHash, Settings = Conversions.ToSettings(Options), TileKey = tile, Attempt = 1 };
+
+        var running = client.RunTileAsync(Task("L0:0")).ResponseAsync;
+        var waiting = client.RunTileAsync(Task("L0:1")).ResponseAsync;
+        await System.Threading.Tasks.Task.Delay(300);
+        Assert.False(running.IsCompleted || waiting.IsCompleted);
+        await LimitCluster.Refused(StatusCode.ResourceExhausted, () => client.RunTileAsync(Task("L0:2")).ResponseAsync,
+            "all 1 tile threads are busy and 1 more tiles wait");
+
+        // Both taken tiles are computed, one after the other on the one thread.
+        var outcomes = await System.Threading.Tasks.Task.WhenAll(running, waiting).WaitAsync(TimeSpan.FromSeconds(60));
+        Assert.Equal(["L0:0", "L0:1"], outcomes.Select(o => o.Result.TileKey));
+        Assert.All(outcomes, o => Assert.NotEmpty(o.Result.Samples));
+    }
+
     private async Task<Worker.WorkerClient> Worker(RequestLimits limits, string id)
     {
         var worker = await _cluster.AddWorkerAsync(new WorkerOptions { Coordinator = _cluster.Coordinator.Address, Threads = 1, Id = id, Limits = limits });
