@@ -67,6 +67,23 @@ internal static class BenchCommand
                 writer.WriteNumber("embeddedTwoThreadsOverOne", Math.Round(times.EmbeddedOneThread / times.Embedded, 3));
                 writer.WriteNumber("clusterOverhead", Math.Round((times.TwoWorkers / times.Embedded) - 1, 3));
                 writer.WriteBoolean("sameContentHash", times.SameContent);
+                writer.WriteNumber("twoOverOneMedian", Math.Round(Median(times.Rounds.Select(r => r.TwoOverOne)), 3));
+                writer.WriteNumber("clusterOverheadMedian", Math.Round(Median(times.Rounds.Select(r => r.ClusterOverhead)), 3));
+                writer.WriteStartArray("rounds");
+                foreach (var round in times.Rounds)
+                {
+                    writer.WriteStartObject();
+                    writer.WriteNumber("seed", round.Seed);
+                    writer.WriteNumber("embeddedSeconds", Math.Round(round.Embedded, 3));
+                    writer.WriteNumber("embeddedOneThreadSeconds", Math.Round(round.EmbeddedOneThread, 3));
+                    writer.WriteNumber("oneWorkerSeconds", Math.Round(round.OneWorker, 3));
+                    writer.WriteNumber("twoWorkersSeconds", Math.Round(round.TwoWorkers, 3));
+                    writer.WriteNumber("twoOverOne", Math.Round(round.TwoOverOne, 3));
+                    writer.WriteNumber("clusterOverhead", Math.Round(round.ClusterOverhead, 3));
+                    writer.WriteEndObject();
+                }
+
+                writer.WriteEndArray();
                 writer.WriteStartObject("coordinator");
                 writer.WriteNumber("tiles", cost.Tiles);
                 writer.WriteNumber("microsecondsPerTile", Math.Round(cost.MicrosecondsPerTile, 1));
@@ -78,6 +95,13 @@ internal static class BenchCommand
             return CommandLine.Success;
         });
         return command;
+    }
+
+    /// <summary>The middle value (the mean of the two middle ones for an even count).</summary>
+    private static double Median(IEnumerable<double> values)
+    {
+        var sorted = values.Order().ToArray();
+        return sorted.Length == 0 ? double.NaN : 0.5 * (sorted[(sorted.Length - 1) / 2] + sorted[sorted.Length / 2]);
     }
 
     private static Command CreateAsk(TextWriter output)

@@ -25,16 +25,31 @@ namespace FiberWorkers.Cli.Commands;
 internal static class ClusterBenchmark
 {
     /// <summary>
-    /// Tile-phase seconds summed over <see cref="Runs"/> sweeps (seeds s, s+1, s+2) for each way of running them; the
-    /// embedded sweep on one thread is the machine's own scaling from one core to two, the reference for the workers'.
+    /// Tile-phase seconds summed over <see cref="Runs"/> rounds (seeds s, s+1, …) for each way of running a sweep, and
+    /// each round's own figures; the embedded sweep on one thread is the machine's own scaling from one core to two,
+    /// the reference for the workers'.
     /// </summary>
-    public sealed record SweepTimes(double Embedded, double EmbeddedOneThread, double OneWorker, double TwoWorkers, int Tiles, int Runs, bool SameContent);
+    public sealed record SweepTimes(double Embedded, double EmbeddedOneThread, double OneWorker, double TwoWorkers, int Tiles, int Runs, bool SameContent, IReadOnlyList<SweepRound> Rounds);
 
-    /// <summary>Timed sweeps per configuration (consecutive seeds); their tile phases are summed.</summary>
-    public const int Runs = 3;
+    /// <summary>One round: the same seed swept in each of the four ways, one right after the other.</summary>
+    public sealed record SweepRound(ulong Seed, double Embedded, double EmbeddedOneThread, double OneWorker, double TwoWorkers)
+    {
+        /// <summary>Two worker processes against one.</summary>
+        public double TwoOverOne => OneWorker / TwoWorkers;
+
+        /// <summary>Two worker processes against the embedded sweep on two threads, as a fraction more time.</summary>
+        public double ClusterOverhead => (TwoWorkers / Embedded) - 1;
+    }
 
     /// <summary>
-    /// Warm-up before timing a configuration: sweeps at other seeds until this long has passed (and at least two).
+    /// Rounds timed. The four ways run interleaved, round by round in a rotating order, so a slow spell of the host
+    /// (on the shared VMs measured here, ±20 % from one half-minute to the next) falls on all of them alike instead
+    /// of on whichever ran then; each round's ratios compare sweeps seconds apart.
+    /// </summary>
+    public const int Runs = 5;
+
+    /// <summary>
+    /// Warm-up of each way before the rounds: sweeps at other seeds until this long has passed (and at least two).
     /// Fresh worker processes need more than one sweep: their first tiles run tier-0 and instrumented code, and on two
     /// busy cores the JIT's background thread competes with the tiles (measured 12-02 on the three-bus microgrid:
     /// second sweep 5.3 s, third and later 3.5–3.7 s; the same first sweep with tiering off 3.6 s).
@@ -45,39 +60,49 @@ internal static class ClusterBenchmark
     public static async Task<SweepTimes> SweepAsync(FamilyDefinition family, SweepOptions options, CancellationToken cancellation)
     {
         using var directory = new BenchDirectory();
-        using (var store = SqliteAtlasStore.Open(directory.File("warmup.db")))
+        var embeddedRun = 0;
+        (double Seconds, string Hash, int Tiles) Embedded(ulong seed, int threads)
         {
-            await WarmAsync(cancellation, seed =>
-            {
-                new SweepRunner(store).Run(family, options with { Seed = seed, MaxDegreeOfParallelism = 2 }, null, cancellation);
-                return Task.CompletedTask;
-            }).ConfigureAwait(false);
+            using var store = SqliteAtlasStore.Open(directory.File($"embedded-{embeddedRun++}.db"));
+            var phase = new PhaseClock();
+            var summary = new SweepRunner(store).Run(family, options with { Seed = seed, MaxDegreeOfParallelism = threads }, phase, cancellation);
+            return (phase.Seconds, summary.ContentHash, summary.Tiles);
         }
 
-        (double Seconds, string[] Hashes, int Tiles) Embedded(int threads)
+        await WarmAsync(cancellation, seed => Task.FromResult(Embedded(seed, 2))).ConfigureAwait(false);
+        await using var one = await BenchCluster.StartAsync(1, directory.File("one.db"), cancellation).ConfigureAwait(false);
+        await using var two = await BenchCluster.StartAsync(2, directory.File("two.db"), cancellation).ConfigureAwait(false);
+        await WarmAsync(cancellation, seed => one.SweepAsync(family, options with { Seed = seed }, cancellation)).ConfigureAwait(false);
+        await WarmAsync(cancellation, seed => two.SweepAsync(family, options with { Seed = seed }, cancellation)).ConfigureAwait(false);
+
+        var ways = new Func<ulong, Task<(double Seconds, string Hash, int Tiles)>>[]
         {
-            var seconds = 0.0;
-            var hashes = new string[Runs];
-            var tiles = 0;
-            for (var run = 0; run < Runs; run++)
+            seed => Task.FromResult(Embedded(seed, 2)),
+            seed => Task.FromResult(Embedded(seed, 1)),
+            seed => one.SweepAsync(family, options with { Seed = seed }, cancellation),
+            seed => two.SweepAsync(family, options with { Seed = seed }, cancellation),
+        };
+        var rounds = new List<SweepRound>();
+        var same = true;
+        var tiles = 0;
+        for (var round = 0; round < Runs; round++)
+        {
+            var seed = options.Seed + (ulong)round;
+            var seconds = new double[ways.Length];
+            var hashes = new string[ways.Length];
+            for (var k = 0; k < ways.Length; k++)
             {
-                using var store = SqliteAtlasStore.Open(directory.File($"embedded-{threads}-{run}.db"));
-                var phase = new PhaseClock();
-                var summary = new SweepRunner(store).Run(family, options with { Seed = options.Seed + (ulong)run, MaxDegreeOfParallelism = threads }, phase, cancellation);
-                seconds += phase.Seconds;
-                hashes[run] = summary.ContentHash;
-                tiles = summary.Tiles;
+                var way = (round + k) % ways.Length;
+                (seconds[way], hashes[way], var count) = await ways[way](seed).ConfigureAwait(false);
+                tiles = Math.Max(tiles, count);
             }
 
-            return (seconds, hashes, tiles);
+            same &= hashes.All(h => string.Equals(h, hashes[0], StringComparison.Ordinal));
+            rounds.Add(new SweepRound(seed, seconds[0], seconds[1], seconds[2], seconds[3]));
         }
 
-        var two = Embedded(2);
-        var single = Embedded(1);
-        var oneWorker = await ClusterRunAsync(family, options, 1, directory.File("one.db"), cancellation).ConfigureAwait(false);
-        var twoWorkers = await ClusterRunAsync(family, options, 2, directory.File("two.db"), cancellation).ConfigureAwait(false);
-        var same = new[] { single.Hashes, oneWorker.Hashes, twoWorkers.Hashes }.All(h => h.SequenceEqual(two.Hashes, StringComparer.Ordinal));
-        return new SweepTimes(two.Seconds, single.Seconds, oneWorker.Seconds, twoWorkers.Seconds, two.Tiles, Runs, same);
+        return new SweepTimes(
+            rounds.Sum(r => r.Embedded), rounds.Sum(r => r.EmbeddedOneThread), rounds.Sum(r => r.OneWorker), rounds.Sum(r => r.TwoWorkers), tiles, Runs, same, rounds);
     }
 
     /// <summary>Runs <paramref name="sweep"/> at seeds 1000, 1001, ... until <see cref="WarmupTime"/> has passed and at least two ran.</summary>
@@ -202,22 +227,34 @@ internal static class ClusterBenchmark
         Source = family.Name,
     };
 
-    private static async Task<(double Seconds, string[] Hashes)> ClusterRunAsync(FamilyDefinition family, SweepOptions options, int workers, string file, CancellationToken cancellation)
+    /// <summary>A coordinator (in this process) with worker processes of its own, kept for every round.</summary>
+    private sealed class BenchCluster : IAsyncDisposable
     {
-        using var log = new Serilog.LoggerConfiguration().CreateLogger();
-        using var ledger = SqliteAtlasStore.Open(file);
-        var listen = ListenAddress.Parse("127.0.0.1:0", "bench");
-        var coordinator = await CoordinatorServer.StartAsync(ledger, CoordinatorOptions.Default, listen, log, cancellation).ConfigureAwait(false);
-        await using (coordinator.ConfigureAwait(false))
+        private readonly SqliteAtlasStore _ledger;
+        private readonly CoordinatorServer _coordinator;
+        private readonly List<Process> _processes;
+        private readonly ClusterClient _client;
+
+        private BenchCluster(SqliteAtlasStore ledger, CoordinatorServer coordinator, List<Process> processes)
         {
-            var processes = Enumerable.Range(0, workers).Select(i => StartWorker(coordinator.Address, $"bench-{i}")).ToList();
+            _ledger = ledger;
+            _coordinator = coordinator;
+            _processes = processes;
+            _client = new ClusterClient(coordinator.Address);
+        }
+
+        public static async Task<BenchCluster> StartAsync(int workers, string file, CancellationToken cancellation)
+        {
+            var ledger = SqliteAtlasStore.Open(file);
+            var listen = ListenAddress.Parse("127.0.0.1:0", "bench");
+            var coordinator = await CoordinatorServer.StartAsync(ledger, CoordinatorOptions.Default, listen, Serilog.Core.Logger.None, cancellation).ConfigureAwait(false);
+            var cluster = new BenchCluster(ledger, coordinator, [.. Enumerable.Range(0, workers).Select(i => StartWorker(coordinator.Address, $"bench-{workers}-{i}"))]);
             try
             {
-                using var client = new ClusterClient(coordinator.Address);
                 var deadline = Stopwatch.StartNew();
-                while ((await client.Coordinator.ListWorkersAsync(new ListWorkersRequest(), cancellationToken: cancellation)).Workers.Count < workers)
+                while ((await cluster._client.Coordinator.ListWorkersAsync(new ListWorkersRequest(), cancellationToken: cancellation)).Workers.Count < workers)
                 {
-                    if (deadline.Elapsed > TimeSpan.FromSeconds(60) || processes.Any(p => p.HasExited))
+                    if (deadline.Elapsed > TimeSpan.FromSeconds(60) || cluster._processes.Any(p => p.HasExited))
                     {
                         throw new InvalidOperationException("the benchmark's worker processes did not register within 60 s");
                     }
@@ -225,35 +262,39 @@ internal static class ClusterBenchmark
                     await Task.Delay(50, cancellation).ConfigureAwait(false);
                 }
 
-                // Fresh processes run tier-0 code for their first seconds: warm-up sweeps (other seeds) first, so the
-                // timed sweeps measure steady-state workers, as a long-running cluster has.
-                await WarmAsync(cancellation, seed => client.SweepAsync(ClusterRequest(family, options with { Seed = seed }), new Relay(new PhaseClock()), cancellation)).ConfigureAwait(false);
-
-                var seconds = 0.0;
-                var hashes = new string[Runs];
-                for (var run = 0; run < Runs; run++)
-                {
-                    var phase = new PhaseClock();
-                    var outcome = await client.SweepAsync(ClusterRequest(family, options with { Seed = options.Seed + (ulong)run }), new Relay(phase), cancellation).ConfigureAwait(false);
-                    seconds += phase.Seconds;
-                    hashes[run] = outcome.ContentHash;
-                }
-
-                return (seconds, hashes);
+                return cluster;
             }
-            finally
+            catch
             {
-                foreach (var process in processes)
-                {
-                    if (!process.HasExited)
-                    {
-                        process.Kill(entireProcessTree: true);
-                    }
-
-                    process.WaitForExit();
-                    process.Dispose();
-                }
+                await cluster.DisposeAsync().ConfigureAwait(false);
+                throw;
             }
+        }
+
+        /// <summary>One sweep through the coordinator: its tile phase, content hash and tiles.</summary>
+        public async Task<(double Seconds, string Hash, int Tiles)> SweepAsync(FamilyDefinition family, SweepOptions options, CancellationToken cancellation)
+        {
+            var phase = new PhaseClock();
+            var outcome = await _client.SweepAsync(ClusterRequest(family, options), new Relay(phase), cancellation).ConfigureAwait(false);
+            return (phase.Seconds, outcome.ContentHash, outcome.Tiles);
+        }
+
+        public async ValueTask DisposeAsync()
+        {
+            foreach (var process in _processes)
+            {
+                if (!process.HasExited)
+                {
+                    process.Kill(entireProcessTree: true);
+                }
+
+                await process.WaitForExitAsync().ConfigureAwait(false);
+                process.Dispose();
+            }
+
+            _client.Dispose();
+            await _coordinator.DisposeAsync().ConfigureAwait(false);
+            _ledger.Dispose();
         }
     }
 
