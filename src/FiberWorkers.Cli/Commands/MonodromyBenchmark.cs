@@ -18,10 +18,15 @@ internal static class MonodromyBenchmark
         var example = new Option<string>("--example") { Description = "The bundled family.", DefaultValueFactory = _ => "microgrid5" };
         var seed = new Option<int>("--seed") { Description = "Seed of every random choice.", DefaultValueFactory = _ => 1 };
         var threads = new Option<int>("--threads") { Description = "Threads that track paths (default: all cores).", DefaultValueFactory = _ => Environment.ProcessorCount };
+        var rootCount = new Option<int?>("--root-count")
+        {
+            Description = "A root count the user knows (as the family file's rootCount would state it): monodromy stops when it has that many. Default: the family's own, if it states one.",
+        };
         var command = new Command("monodromy", "Time to a family's generic fiber by monodromy vs total degree at the same point; paths tracked by each.");
         command.Options.Add(example);
         command.Options.Add(seed);
         command.Options.Add(threads);
+        command.Options.Add(rootCount);
         command.SetAction(parse =>
         {
             var name = parse.GetValue(example)!;
@@ -36,10 +41,17 @@ internal static class MonodromyBenchmark
                 throw new UsageException($"--threads must be between 1 and 4096, got {count}");
             }
 
+            var hint = parse.GetValue(rootCount);
+            if (hint is < 1 or > 1_000_000)
+            {
+                throw new UsageException($"--root-count must be between 1 and 1000000, got {hint}");
+            }
+
             var family = ExampleCatalog.Load(name);
+            hint ??= family.RootCount;
             var options = SolveOptions.Default with { Seed = parse.GetValue(seed), MaxDegreeOfParallelism = count };
             StartFiberResult Run(StartFiberMethod method, SolveOptions settings) =>
-                StartFiberFactory.Create(family.System, family.ContentHash, family.Parameters, method, settings, rootCountHint: family.RootCount);
+                StartFiberFactory.Create(family.System, family.ContentHash, family.Parameters, method, settings, rootCountHint: hint);
 
             // Warm the JIT for 3 s on both methods at other seeds: hot loops reach optimised code only after many calls
             // and a background delay, so one warm-up run each would still time partly unoptimised code.
@@ -75,6 +87,14 @@ internal static class MonodromyBenchmark
                 MachineDescription.Write(writer);
                 writer.WriteString("family", name);
                 writer.WriteNumber("threads", count);
+                if (hint is { } stated)
+                {
+                    writer.WriteNumber("rootCountHint", stated);
+                }
+                else
+                {
+                    writer.WriteNull("rootCountHint");
+                }
                 writer.WriteStartObject("monodromy");
                 writer.WriteNumber("seconds", Math.Round(monodromySeconds, 3));
                 writer.WriteNumber("rootCount", monodromy.Fiber.RootCount);

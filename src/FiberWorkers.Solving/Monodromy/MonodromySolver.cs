@@ -365,6 +365,10 @@ internal sealed class MonodromySolver
         var trace = (TraceTestResult?)null;
         var skipped = (string?)null;
         var traceTest = new TraceTest(system, _solve, _options.TraceTolerance);
+
+        // The trace test draws its slices from a stream of its own, so whether and how often it runs (an expected
+        // count skips it) does not change the points the search adds.
+        var traceRandom = new SeededRandom(random.NextUInt64());
         var done = false;
         while (true)
         {
@@ -412,11 +416,13 @@ internal sealed class MonodromySolver
 
             // The trace test (two tracks per solution) can end the search. A failure means solutions are missing or
             // that the test does not apply (points of the fiber at infinity on the moving slice); the stopping rule
-            // then decides. The verdict changes only with the fiber, so it is not repeated on the same one.
-            if (_options.TraceTest && solutions.Count != countAtLastTrace)
+            // then decides. The verdict changes only with the fiber, so it is not repeated on the same one. Below an
+            // expected count it cannot pass unless the count is wrong, so it waits for a rest that found nothing new.
+            var belowExpected = _options.ExpectedRootCount is { } goal && solutions.Count < goal && stall == 0;
+            if (_options.TraceTest && solutions.Count != countAtLastTrace && !belowExpected)
             {
                 countAtLastTrace = solutions.Count;
-                (trace, skipped) = traceTest.Run(basis, solutions, random);
+                (trace, skipped) = traceTest.Run(basis, solutions, traceRandom);
                 if (trace is { Passed: true })
                 {
                     break;

@@ -7,6 +7,7 @@ public sealed class BenchOptionsTests
     {
         { ["bench", "monodromy", "--example", "nine-bus"], "--example: no bundled example 'nine-bus' (see 'fiber examples')" },
         { ["bench", "monodromy", "--threads", "0"], "--threads must be between 1 and 4096, got 0" },
+        { ["bench", "monodromy", "--root-count", "0"], "--root-count must be between 1 and 1000000, got 0" },
         { ["bench", "sweep", "--example", "nine-bus"], "--example: no bundled example 'nine-bus' (see 'fiber examples')" },
         { ["bench", "sweep", "--budget", "99"], "--budget must be between 100 and 100000000" },
         { ["bench", "sweep", "--lines", "0"], "--lines must be between 1 and 10000" },

@@ -31,6 +31,10 @@ public sealed class MonodromySolverTests
             $"{with.Report.SegmentTracks} segment tracks with the count, {without.Report.SegmentTracks} without");
         // The count ends the search without a passing trace test; without it the search needs one or the stopping rule.
         Assert.False(with.Report.TraceTest is { Passed: true });
+        // The trace test draws from a stream of its own, so both searches add the same points up to where the count
+        // stops one; with the count the test runs only at rests below it that found nothing new.
+        Assert.True(with.Report.Nodes <= without.Report.Nodes, $"{with.Report.Nodes} points with the count, {without.Report.Nodes} without");
+        Assert.True(with.Report.TracePaths < without.Report.TracePaths, $"{with.Report.TracePaths} trace-test paths with the count, {without.Report.TracePaths} without");
         // It stopped while carrying solutions, not after a loop that found nothing.
         Assert.Equal(0, with.Report.LoopsWithoutNew);
         Assert.Equal("expected-count", with.Report.Completeness);
