@@ -33,15 +33,7 @@ public sealed class ResolverTests
         var fast = 0;
         for (var i = 0; i < 500; i++)
         {
-            var point = new double[2];
-            var nearBoundary = i % 3 == 0;
-            for (var k = 0; k < 2; k++)
-            {
-                var p = family.Parameters[k];
-                point[k] = nearBoundary
-                    ? Math.Clamp(folds[random.Next(folds.Length)].Point[k] + (2e-3 * p.Width * (random.NextDouble() - 0.5)), p.Low, p.High)
-                    : p.Low + (p.Width * random.NextDouble());
-            }
+            var point = RandomPoint(family, folds, random, nearBoundary: i % 3 == 0);
 
             var answer = resolver.Ask(point);
             var full = resolver.SolveFull(point);
@@ -165,14 +157,7 @@ public sealed class ResolverTests
         var fromRelays = 0;
         for (var i = 0; i < 300; i++)
         {
-            var point = new double[2];
-            for (var k = 0; k < 2; k++)
-            {
-                var p = family.Parameters[k];
-                point[k] = i % 3 == 0
-                    ? Math.Clamp(folds[random.Next(folds.Length)].Point[k] + (2e-3 * p.Width * (random.NextDouble() - 0.5)), p.Low, p.High)
-                    : p.Low + (p.Width * random.NextDouble());
-            }
+            var point = RandomPoint(family, folds, random, nearBoundary: i % 3 == 0);
 
             var answer = relayed.Ask(point);
             var reference = relayed.SolveFull(point);
@@ -196,6 +181,23 @@ public sealed class ResolverTests
 
         // A relay that cannot finish hands its point to the start fiber; nearly all must finish.
         Assert.True(fromRelays >= 290, $"only {fromRelays} of 300 full solves came from relay fibers");
+    }
+
+    /// <summary>
+    /// A point of the family's box: uniform, or within 1e-3 of the box width (per parameter) of a random stored fold.
+    /// </summary>
+    private static double[] RandomPoint(FiberWorkers.Algebra.Families.FamilyDefinition family, Crossing[] folds, Random random, bool nearBoundary)
+    {
+        var point = new double[family.Parameters.Count];
+        for (var k = 0; k < point.Length; k++)
+        {
+            var p = family.Parameters[k];
+            point[k] = nearBoundary
+                ? Math.Clamp(folds[random.Next(folds.Length)].Point[k] + (2e-3 * p.Width * (random.NextDouble() - 0.5)), p.Low, p.High)
+                : p.Low + (p.Width * random.NextDouble());
+        }
+
+        return point;
     }
 
     /// <summary>The cubic over 6×6 tiles with 8 lines each, swept into <paramref name="store"/> and loaded.</summary>
