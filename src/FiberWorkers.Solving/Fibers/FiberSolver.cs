@@ -140,6 +140,31 @@ public sealed class FiberSolver
     }
 
     /// <summary>
+    /// Reaches the fiber over <paramref name="parameters"/> from a start fiber close by along the straight segment in
+    /// affine coordinates, with no endgame: the parameter homotopy's N paths, each of which must end regular (see
+    /// <see cref="TrackSegment"/>), then certified. A fiber whose N endpoints are certified distinct approximate zeros
+    /// is complete, since no fiber has more isolated solutions than the generic one (Morgan &amp; Sommese 1989). Paths
+    /// that meet a singularity or run off towards infinity fail instead of being followed there; the caller then
+    /// solves with <see cref="Solve"/>, whose projective chart and endgame handle them. Made for start fibers at
+    /// complex points near the target, where paths are short and well conditioned.
+    /// </summary>
+    public FiberSolution SolveAlongSegment(StartFiber start, ReadOnlySpan<Complex> parameters, TrackerOptions? tracker = null)
+    {
+        ArgumentNullException.ThrowIfNull(start);
+        RequireParameters(parameters);
+        if (start.Parameters.Length != System.ParameterCount || start.Unknowns.Count != System.UnknownCount)
+        {
+            throw new ArgumentException("the start fiber does not belong to this system", nameof(start));
+        }
+
+        var point = parameters.ToArray();
+        var segment = TrackSegment(start.Parameters, point, start.Solutions, tracker);
+        var regular = segment.Paths.Where(p => p.Status == PathStatus.Regular).Select(p => (p.Index, p.Endpoint!)).ToArray();
+        var solutions = Certify(point, regular);
+        return new FiberSolution("parameter", point, segment.Paths, solutions, point.All(v => v.Imaginary == 0), start.RootCount);
+    }
+
+    /// <summary>
     /// Tracks given solutions at <paramref name="from"/> along the straight segment to <paramref name="to"/>
     /// (affine coordinates, no endgame). A path that meets a singularity on the way fails instead of crossing it:
     /// step-size underflow, a singular Jacobian, or an ill-conditioned end (κ above 10⁷, which in double precision

@@ -49,6 +49,43 @@ public sealed class ParameterHomotopyTests
         }
     }
 
+    [Theory]
+    [InlineData("microgrid4", 111)]
+    [InlineData("microgrid3", 112)]
+    public void Affine_segment_solves_from_a_nearby_complex_fiber_equal_total_degree_solves(string example, int seed)
+    {
+        // A fiber at a complex point near each real target (a tenth of the box away, as the resolver's relay fibers
+        // are), carried along the straight segment with no endgame: every path must arrive, and the set must be the
+        // independent total-degree solve's, counts and reality included.
+        var family = TestFamilies.Example(example);
+        var solver = new FiberSolver(family.System);
+        var start = solver.CreateStartFiber(family.ContentHash, family.Parameters);
+        var random = new Random(seed);
+        for (var k = 0; k < 6; k++)
+        {
+            var point = new Complex[family.Parameters.Count];
+            var near = new Complex[point.Length];
+            for (var j = 0; j < point.Length; j++)
+            {
+                var box = family.Parameters[j];
+                point[j] = box.Low + (random.NextDouble() * box.Width);
+                near[j] = point[j] + new Complex(0.1 * box.Width * RandomSystems.Gaussian(random), 0.1 * box.Width * RandomSystems.Gaussian(random));
+            }
+
+            var relay = solver.Solve(start, near);
+            var nearFiber = new FiberWorkers.Solving.StartFibers.StartFiber(start.FamilyHash, start.Unknowns, near, [.. relay.Solutions.Select(s => s.Values)], start.Provenance);
+            var along = solver.SolveAlongSegment(nearFiber, point);
+            var reference = solver.SolveTotalDegree(point);
+
+            var where = $"{example} at ({SolutionSets.Format(point)})";
+            Assert.True(along.Paths.All(p => p.Status == PathStatus.Regular), $"{where}: an affine segment path failed");
+            Assert.Equal(start.RootCount, along.RootCount);
+            Assert.True(along.RealCountCertified, $"{where}: the real count is not certified");
+            SolutionSets.AssertSame([.. reference.Solutions.Select(s => s.Values)], [.. along.Solutions.Select(s => s.Values)], 1e-8, where);
+            Assert.Equal(reference.RealCount, along.RealCount);
+        }
+    }
+
     [Fact]
     public void Parameter_homotopy_at_the_start_point_returns_the_start_solutions()
     {
