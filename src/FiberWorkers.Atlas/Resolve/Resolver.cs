@@ -113,6 +113,13 @@ public sealed class Resolver
     private static readonly Solving.Tracking.TrackerOptions Detour =
         Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0 };
 
+    /// <summary>
+    /// The straight segment from a relay fiber to a query in its cell: complex, short, a first step over all of it; a
+    /// path that needs more than 200 steps is heading for a singularity or infinity, and the projective solve with its
+    /// endgame takes over.
+    /// </summary>
+    private static readonly Solving.Tracking.TrackerOptions RelaySegment = Detour with { MaxSteps = 200 };
+
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
 
@@ -202,7 +209,14 @@ public sealed class Resolver
                 continue;
             }
 
-            if (_options.TwoSided && AroundFold(index, target, rejections, ref paths) is { } real)
+            // Across a stored crossing nothing was tracked yet, and any neighbour with the count may go around the
+            // fold: the one farthest from the stored locus, whose solutions about to meet there are still apart.
+            if (outcome.AcrossCrossing)
+            {
+                index = Clearest(candidates[..found], most, index);
+            }
+
+            if (_options.TwoSided && AroundFold(index, outcome.Lost.Solutions, target, rejections, ref paths) is { } real)
             {
                 // All arriving real proves the highest count, unless a stored crossing lies in between: there a pair of
                 // the sample's non-real solutions may have turned real too, which no track from it can see.
@@ -229,12 +243,17 @@ public sealed class Resolver
     }
 
     /// <summary>
-    /// Tracks every real solution of a start sample to the query along two straight segments through the segment's
-    /// midpoint moved off the real plane by half the segment's length (box-normalized), so that no path meets a real
-    /// fold. Returns the endpoints certified real when every path arrives and every endpoint is a certified, distinct
-    /// zero whose reality is decided; else null, with the reason among the rejections.
+    /// Tracks real solutions of a start sample to the query along two straight segments through the segment's midpoint
+    /// moved off the real plane by half the segment's length (box-normalized), so that no path meets a real fold.
+    /// Solutions whose real-only paths already arrived certified real (<paramref name="arrived"/>) keep those ends and
+    /// only the others take the detour (on the four-bus microgrid a fold takes one pair, so two paths instead of all);
+    /// when none arrived, or one arrived uncertified, every real solution takes it. Returns the endpoints certified real
+    /// when every detoured path arrives and every endpoint, old and new together, is a certified, distinct zero whose
+    /// reality is decided; else null, with the reason among the rejections. Both ways rest on the same premise as the
+    /// real-only track (the sample's non-real solutions stay non-real over the short way); the arrived ends and the
+    /// detoured ones are all certified solutions at the query, and certified distinct together.
     /// </summary>
-    private IReadOnlyList<FiberPoint>? AroundFold(int index, Complex[] target, List<string> rejections, ref int paths)
+    private IReadOnlyList<FiberPoint>? AroundFold(int index, IReadOnlyList<FiberPoint> arrived, Complex[] target, List<string> rejections, ref int paths)
     {
         var sample = _samples.Samples[index];
         var from = ToComplex([.. sample.Point]);
@@ -253,8 +272,18 @@ public sealed class Resolver
         }
 
         var solutions = Solutions(sample);
-        paths += 2 * solutions.Count;
-        var first = _solver.TrackSegment(from, middle, solutions, Detour);
+        var keep = arrived.Count > 0 && arrived.All(c => c.Certified && c.Certificate.Reality == Reality.Real) ? arrived : [];
+        var detoured = new List<int>(solutions.Count);
+        for (var r = 0; r < solutions.Count; r++)
+        {
+            if (!keep.Any(c => c.PathIndex == r))
+            {
+                detoured.Add(r);
+            }
+        }
+
+        paths += 2 * detoured.Count;
+        var first = _solver.TrackSegment(from, middle, [.. detoured.Select(r => solutions[r])], Detour);
         var second = first.AllRegular ? _solver.TrackSegment(middle, target, [.. first.Paths.Select(p => p.Endpoint!)], Detour) : null;
         if (second is null || !second.AllRegular)
         {
@@ -262,7 +291,10 @@ public sealed class Resolver
             return null;
         }
 
-        var certified = _solver.Certify(target, [.. second.Paths.Select(p => (p.Index, p.Endpoint!))]);
+        var ends = new List<(int PathIndex, Complex[] Values)>(solutions.Count);
+        ends.AddRange(keep.Select(c => (c.PathIndex, c.Values)));
+        ends.AddRange(second.Paths.Select(p => (detoured[p.Index], p.Endpoint!)));
+        var certified = _solver.Certify(target, ends);
         if (!certified.All(c => c.Certified))
         {
             rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
@@ -270,6 +302,25 @@ public sealed class Resolver
         }
 
         return [.. certified.Where(c => c.Certificate.Reality == Reality.Real)];
+    }
+
+    /// <summary>
+    /// Among the neighbours holding <paramref name="count"/>, the one farthest from its nearest stored crossing (the
+    /// first such on ties; <paramref name="fallback"/> when there is no stored crossing).
+    /// </summary>
+    private int Clearest(ReadOnlySpan<int> neighbours, int count, int fallback)
+    {
+        var best = fallback;
+        var clearest = Clearance(fallback);
+        foreach (var index in neighbours)
+        {
+            if (_samples.Labels[index] == count && Clearance(index) > clearest)
+            {
+                (best, clearest) = (index, Clearance(index));
+            }
+        }
+
+        return best;
     }
 
     /// <summary>
@@ -407,18 +458,28 @@ public sealed class Resolver
 
     /// <summary>
     /// The full solve of a point inside the box from the relay fiber of its cell: the same parameter homotopy with all N
-    /// paths, from a start fiber nearer than the family's. When the relay is not complete, or a path from it does not
-    /// arrive, the family's start fiber solves instead (the paths tried are counted).
+    /// paths, from a start fiber nearer than the family's, first along the straight segment in affine coordinates (no
+    /// endgame; accepted when all N ends are certified distinct zeros, which makes the fiber complete), then in the
+    /// projective chart with the endgame. When the relay is not complete, or a path from it does not arrive either way,
+    /// the family's start fiber solves instead (the paths tried are counted).
     /// </summary>
     private (FiberSolution Solution, string From) SolveNear(Complex[] target, ref int paths)
     {
         var cell = _relays.Length > 0 ? Cell(target) : -1;
         if (cell >= 0 && _relays[cell].Value is { } relay)
         {
+            var name = string.Create(CultureInfo.InvariantCulture, $"relay fiber of cell {cell + 1} of {_relays.Length}");
+            var direct = _solver.SolveAlongSegment(relay, target, RelaySegment);
+            if (direct.Paths.All(p => p.Status == PathStatus.Regular) && direct.RootCount == relay.RootCount && direct.Solutions.All(s => s.Certified))
+            {
+                return (direct, name);
+            }
+
+            paths += direct.PathsTracked;
             var near = _relaySolver.Solve(relay, target);
             if (near.Paths.All(p => p.Status == PathStatus.Regular) && near.RootCount == relay.RootCount)
             {
-                return (near, string.Create(CultureInfo.InvariantCulture, $"relay fiber of cell {cell + 1} of {_relays.Length}"));
+                return (near, name);
             }
 
             paths += near.PathsTracked;
@@ -562,17 +623,31 @@ public sealed class Resolver
 
         distance = Math.Sqrt(distance);
 
-        // A sample's clearance never changes: computed on first use and kept (a race only computes it twice).
-        var clearance = Volatile.Read(ref _clearance[index]);
-        if (double.IsNaN(clearance))
-        {
-            clearance = Math.Sqrt(_crossingTree.Nearest(start).SquaredDistance);
-            Volatile.Write(ref _clearance[index], clearance);
-        }
-
+        var clearance = Clearance(index);
         return distance <= _options.CrossingMargin * clearance
             ? null
             : string.Create(CultureInfo.InvariantCulture, $"the point is {distance:G3} away, more than {_options.CrossingMargin} of its distance {clearance:G3} to the nearest stored crossing");
+    }
+
+    /// <summary>
+    /// A sample's distance (box-normalized) to its nearest stored crossing, +∞ without crossings. It never changes:
+    /// computed on first use and kept (a race only computes it twice).
+    /// </summary>
+    private double Clearance(int index)
+    {
+        if (_crossingTree is null)
+        {
+            return double.PositiveInfinity;
+        }
+
+        var clearance = Volatile.Read(ref _clearance[index]);
+        if (double.IsNaN(clearance))
+        {
+            clearance = Math.Sqrt(_crossingTree.Nearest(_samples.Points.AsSpan(index * _samples.Dimension, _samples.Dimension)).SquaredDistance);
+            Volatile.Write(ref _clearance[index], clearance);
+        }
+
+        return clearance;
     }
 
     private static double DistanceToSegment(ReadOnlySpan<double> point, ReadOnlySpan<double> a, ReadOnlySpan<double> b)
