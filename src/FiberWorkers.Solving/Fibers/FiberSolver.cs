@@ -27,6 +27,9 @@ public sealed class FiberSolver
     /// </summary>
     private const double SegmentEndConditionLimit = 1e7;
 
+    /// <summary>A segment's start with ‖F‖∞ at most this (relative to 1 + ‖x‖∞) is tracked as given.</summary>
+    private const double StartResidual = 1e-13;
+
     private readonly CompiledSystem _affine;
     private readonly CompiledSystem _projective;
     private readonly CoefficientLayout _layout;
@@ -173,7 +176,7 @@ public sealed class FiberSolver
     /// </summary>
     /// <param name="from">The segment's start, where <paramref name="solutions"/> solve the system.</param>
     /// <param name="to">The segment's end.</param>
-    /// <param name="solutions">Solutions at <paramref name="from"/> (refined by a Newton step first).</param>
+    /// <param name="solutions">Solutions at <paramref name="from"/> (refined by Newton's method first unless their residual is already at rounding level).</param>
     /// <param name="tracker">Tracker settings for this segment (default: the solver's); short segments can start with long steps.</param>
     public SegmentResult TrackSegment(ReadOnlySpan<Complex> from, ReadOnlySpan<Complex> to, IReadOnlyList<Complex[]> solutions, TrackerOptions? tracker = null)
     {
@@ -254,8 +257,14 @@ public sealed class FiberSolver
 
     private PathResult TrackSegmentPath(PathTracker tracker, int index, Complex[] start, TrackerOptions options)
     {
+        // Starts already zeros to rounding (stored samples, refined ends of an earlier segment) skip the Newton steps:
+        // the tracker's first tangent factors the Jacobian there anyway.
         var x = (Complex[])start.Clone();
-        tracker.Refine(x, 0, 2, 1e-15);
+        if (!(tracker.ValueNorm(x, 0) <= StartResidual * (1 + PathTracker.MaxNorm(x))))
+        {
+            tracker.Refine(x, 0, 2, 1e-15);
+        }
+
         var outcome = tracker.Track(x, 0, 1, options);
         if (!outcome.Completed)
         {
@@ -270,8 +279,7 @@ public sealed class FiberSolver
             };
         }
 
-        tracker.Refine(x, 1, 3, 1e-15);
-        var condition = tracker.Condition(x, 1);
+        tracker.Refine(x, 1, 3, 1e-15, out var condition);
         var limit = Math.Min(Options.Endgame.SingularConditionLimit, SegmentEndConditionLimit);
         var status = condition <= limit ? PathStatus.Regular : PathStatus.Failed;
         return new PathResult

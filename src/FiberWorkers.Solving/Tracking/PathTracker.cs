@@ -112,7 +112,9 @@ internal sealed class PathTracker
             _predicted.AsSpan().CopyTo(x);
             tau = last ? 1 : tau + step;
             steps++;
-            if (!Derivative(x, newT, span, _k1))
+
+            // The tangent at the end would only serve a next step: every caller refines and judges the end itself.
+            if (!last && !Derivative(x, newT, span, _k1))
             {
                 return new TrackOutcome(TrackStatus.SingularJacobian, tau, steps, rejections, stepSize);
             }
@@ -199,6 +201,57 @@ internal sealed class PathTracker
         }
 
         return last;
+    }
+
+    /// <summary>
+    /// <see cref="Refine(Span{Complex}, Complex, int, double)"/> that also estimates κ₁(∂H/∂x) from the last
+    /// iteration's factors, taken at the point before its (converged, rounding-sized) update: the same figure as
+    /// <see cref="Condition"/> at the refined point without another evaluation and factorization. ∞ when a
+    /// factorization fails.
+    /// </summary>
+    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance, out double condition)
+    {
+        condition = double.PositiveInfinity;
+        var last = double.PositiveInfinity;
+        for (var iteration = 0; iteration < maxIterations; iteration++)
+        {
+            _homotopy.Evaluate(x, t, _values, _jacobian);
+            var matrixNorm = ComplexLu.OneNorm(_jacobian, _n);
+            if (!ComplexLu.Factor(_jacobian, _n, _pivots) || !double.IsFinite(matrixNorm))
+            {
+                condition = double.PositiveInfinity;
+                return double.PositiveInfinity;
+            }
+
+            ComplexLu.Solve(_jacobian, _n, _pivots, _values);
+            var norm = MaxNorm(_values);
+            if (!double.IsFinite(norm))
+            {
+                return double.PositiveInfinity;
+            }
+
+            for (var i = 0; i < _n; i++)
+            {
+                x[i] -= _values[i];
+            }
+
+            last = norm;
+            var converged = norm <= tolerance * (1 + MaxNorm(x));
+            if (converged || iteration == maxIterations - 1)
+            {
+                condition = matrixNorm * ComplexLu.EstimateInverseOneNorm(_jacobian, _n, _pivots, _work);
+                break;
+            }
+        }
+
+        return last;
+    }
+
+    /// <summary>‖H(x, t)‖∞ from the values alone (no Jacobian).</summary>
+    public double ValueNorm(ReadOnlySpan<Complex> x, Complex t)
+    {
+        _homotopy.Evaluate(x, t, _values);
+        return MaxNorm(_values);
     }
 
     /// <summary>‖H(x, t)‖∞.</summary>
