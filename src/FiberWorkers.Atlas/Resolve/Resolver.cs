@@ -109,9 +109,14 @@ public sealed class Resolver
     private static readonly Solving.Tracking.TrackerOptions ShortSegment =
         Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-4, MaxSteps = 50 };
 
-    /// <summary>The two legs of a detour around a fold: complex paths, no fold on them, a first step over the whole leg.</summary>
+    /// <summary>
+    /// The two legs of a detour around a fold: complex paths, no fold on them, a first step over the whole leg, and a
+    /// predictor tolerance ten times the default's. Each end is refined and certified, and the ends must be distinct,
+    /// so a path that jumps can only cost the answer (a rejection or a mismatch with the other side), never make a
+    /// wrong one: whatever set of certified distinct real zeros is accepted holds the count the checks require.
+    /// </summary>
     private static readonly Solving.Tracking.TrackerOptions Detour =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, PredictorTolerance = 1e-3 };
 
     /// <summary>
     /// The straight segment from a relay fiber to a query in its cell: complex, short, a first step over all of it; a
@@ -125,6 +130,23 @@ public sealed class Resolver
 
     /// <summary>The classifier that predicts labels.</summary>
     public RegionClassifier Classifier => _classifier;
+
+    /// <summary>
+    /// Computes every relay fiber now instead of on first use (a full solve from the family's start fiber per cell;
+    /// cells whose solve is incomplete stay empty and their points solve from the start fiber). For hosts that answer
+    /// many queries and would rather pay this once at start-up than on the first fallback in each cell. Thread-safe.
+    /// Returns the number of cells with a relay fiber.
+    /// </summary>
+    public int PrepareRelays()
+    {
+        var ready = 0;
+        foreach (var relay in _relays)
+        {
+            ready += relay.Value is null ? 0 : 1;
+        }
+
+        return ready;
+    }
 
     /// <summary>Answers one query. Thread-safe.</summary>
     public ResolveAnswer Ask(ReadOnlySpan<double> point)
@@ -182,6 +204,8 @@ public sealed class Resolver
         // a neighbour holding that count on p's side. Both tracks rest on what the first stage rests on: the start
         // samples' non-real solutions stay non-real over the short way to p.
         var tries = 0;
+        Span<int> detoured = stackalloc int[Math.Clamp(_options.Attempts, 1, 64)];
+        var detours = 0;
         for (var i = 0; i < found && tries < _options.Attempts; i++)
         {
             var index = candidates[i];
@@ -211,9 +235,19 @@ public sealed class Resolver
 
             // Across a stored crossing nothing was tracked yet, and any neighbour with the count may go around the
             // fold: the one farthest from the stored locus, whose solutions about to meet there are still apart.
+            // Each goes around once: a later attempt across a crossing takes the next clearest.
             if (outcome.AcrossCrossing)
             {
-                index = Clearest(candidates[..found], most, index);
+                index = Clearest(candidates[..found], most, index, detoured[..detours]);
+                if (detoured[..detours].Contains(index))
+                {
+                    continue;
+                }
+            }
+
+            if (detours < detoured.Length)
+            {
+                detoured[detours++] = index;
             }
 
             if (_options.TwoSided && AroundFold(index, outcome.Lost.Solutions, target, rejections, ref paths) is { } real)
@@ -305,16 +339,16 @@ public sealed class Resolver
     }
 
     /// <summary>
-    /// Among the neighbours holding <paramref name="count"/>, the one farthest from its nearest stored crossing (the
-    /// first such on ties; <paramref name="fallback"/> when there is no stored crossing).
+    /// Among the neighbours holding <paramref name="count"/> and not in <paramref name="excluded"/>, the one farthest
+    /// from its nearest stored crossing (the first such on ties; <paramref name="fallback"/> when none is clearer).
     /// </summary>
-    private int Clearest(ReadOnlySpan<int> neighbours, int count, int fallback)
+    private int Clearest(ReadOnlySpan<int> neighbours, int count, int fallback, ReadOnlySpan<int> excluded)
     {
         var best = fallback;
-        var clearest = Clearance(fallback);
+        var clearest = excluded.Contains(fallback) ? double.NegativeInfinity : Clearance(fallback);
         foreach (var index in neighbours)
         {
-            if (_samples.Labels[index] == count && Clearance(index) > clearest)
+            if (_samples.Labels[index] == count && !excluded.Contains(index) && Clearance(index) > clearest)
             {
                 (best, clearest) = (index, Clearance(index));
             }

@@ -195,6 +195,8 @@ internal static class BenchCommand
                 }
 
                 writer.WriteNumber("agreement", report.Agreement);
+                writer.WriteNumber("relayFibers", report.RelayFibers);
+                writer.WriteNumber("relaySeconds", Math.Round(report.RelaySeconds, 3));
                 writer.WriteNumber("meanRealCount", Math.Round(report.MeanRealCount, 3));
                 writer.WriteEndObject();
             });

@@ -181,6 +181,19 @@ public sealed class ResolverTests
 
         // A relay that cannot finish hands its point to the start fiber; nearly all must finish.
         Assert.True(fromRelays >= 290, $"only {fromRelays} of 300 full solves came from relay fibers");
+
+        // Relay fibers computed up front are the ones computed on first use: the same answers from a fresh resolver.
+        var eager = AtlasResolver.Create(store, snapshot, options: ResolveOptions.Default with { Attempts = 0, RelayDivisions = 3 });
+        Assert.Equal(9, eager.PrepareRelays());
+        for (var i = 0; i < 20; i++)
+        {
+            var point = RandomPoint(family, folds, random, nearBoundary: false);
+            var lazy = relayed.Ask(point);
+            var prepared = eager.Ask(point);
+            Assert.Equal(lazy.StartSample, prepared.StartSample);
+            Assert.Equal(lazy.RealCount, prepared.RealCount);
+            Assert.All(lazy.Solutions, s => Assert.Contains(prepared.Solutions, t => Distance(t.Values, s.Values) == 0));
+        }
     }
 
     /// <summary>
