@@ -41,6 +41,7 @@ internal sealed class AlphaCertifier
     private readonly int[] _pivots;
     private readonly double[] _error;
     private readonly double[] _propagated;
+    private readonly double[] _magnitudes;
 
     /// <param name="layout">The system's coefficient layout (computed once per system).</param>
     /// <param name="compiled">The compiled affine system.</param>
@@ -84,6 +85,7 @@ internal sealed class AlphaCertifier
         _pivots = new int[_n];
         _error = new double[_n];
         _propagated = new double[_n];
+        _magnitudes = new double[_n];
     }
 
     /// <summary>True when every coefficient of f is real (so reality can be decided).</summary>
@@ -103,9 +105,14 @@ internal sealed class AlphaCertifier
 
         // Rounding allowance: |f_computed − f| ≤ (terms + degree + 2)·2ε·Σ|aα|·|x|^α per equation (a Higham-style
         // bound for sums of products in complex arithmetic), so β ≤ ‖Df⁻¹f‖ + ‖ |Df⁻¹|·error ‖.
+        for (var j = 0; j < _n; j++)
+        {
+            _magnitudes[j] = x[j].Magnitude;
+        }
+
         for (var i = 0; i < _n; i++)
         {
-            _error[i] = AbsoluteValue(i, x) * (_absoluteTerms[i].Length + _degrees[i] + 2) * Epsilon * 2;
+            _error[i] = AbsoluteValue(i) * (_absoluteTerms[i].Length + _degrees[i] + 2) * Epsilon * 2;
             _propagated[i] = 0;
         }
 
@@ -131,10 +138,14 @@ internal sealed class AlphaCertifier
             var columnSum = 0.0;
             for (var i = 0; i < _n; i++)
             {
+                // One square root per entry instead of two scaled hypotenuses: these entries of Df⁻¹ are far from
+                // overflow, and one that did overflow would make α infinite, which certifies nothing.
                 var value = _column[i];
-                columnSquared += (value.Real * value.Real) + (value.Imaginary * value.Imaginary);
-                columnSum += value.Magnitude;
-                _propagated[i] += value.Magnitude * _error[j];
+                var squared = (value.Real * value.Real) + (value.Imaginary * value.Imaginary);
+                var magnitude = Math.Sqrt(squared);
+                columnSquared += squared;
+                columnSum += magnitude;
+                _propagated[i] += magnitude * _error[j];
             }
 
             inverseOneNorm = Math.Max(inverseOneNorm, columnSum);
@@ -192,7 +203,8 @@ internal sealed class AlphaCertifier
 
     private const Reality Undecided = Reality.Undecided;
 
-    private double AbsoluteValue(int equation, ReadOnlySpan<Complex> x)
+    /// <summary>Σ|aα|·|x|^α for one equation, from the magnitudes of x's coordinates (computed once a point).</summary>
+    private double AbsoluteValue(int equation)
     {
         var sum = 0.0;
         foreach (var (exponents, magnitude) in _absoluteTerms[equation])
@@ -202,7 +214,7 @@ internal sealed class AlphaCertifier
             {
                 for (var k = 0; k < exponents[j]; k++)
                 {
-                    term *= x[j].Magnitude;
+                    term *= _magnitudes[j];
                 }
             }
 
