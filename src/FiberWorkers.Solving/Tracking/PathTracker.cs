@@ -170,38 +170,8 @@ internal sealed class PathTracker
     /// Newton's method on H(·, t) = 0 at fixed t; returns the last step norm (∞ on failure) and leaves the
     /// refined point in <paramref name="x"/>.
     /// </summary>
-    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance)
-    {
-        var last = double.PositiveInfinity;
-        for (var iteration = 0; iteration < maxIterations; iteration++)
-        {
-            _homotopy.Evaluate(x, t, _values, _jacobian);
-            if (!ComplexLu.Factor(_jacobian, _n, _pivots))
-            {
-                return double.PositiveInfinity;
-            }
-
-            ComplexLu.Solve(_jacobian, _n, _pivots, _values);
-            var norm = MaxNorm(_values);
-            if (!double.IsFinite(norm))
-            {
-                return double.PositiveInfinity;
-            }
-
-            for (var i = 0; i < _n; i++)
-            {
-                x[i] -= _values[i];
-            }
-
-            last = norm;
-            if (norm <= tolerance * (1 + MaxNorm(x)))
-            {
-                break;
-            }
-        }
-
-        return last;
-    }
+    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance) =>
+        Refine(x, t, maxIterations, tolerance, estimateCondition: false, out _);
 
     /// <summary>
     /// <see cref="Refine(Span{Complex}, Complex, int, double)"/> that also estimates κ₁(∂H/∂x) from the last
@@ -209,17 +179,19 @@ internal sealed class PathTracker
     /// <see cref="Condition"/> at the refined point without another evaluation and factorization. ∞ when a
     /// factorization fails.
     /// </summary>
-    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance, out double condition)
+    public double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance, out double condition) =>
+        Refine(x, t, maxIterations, tolerance, estimateCondition: true, out condition);
+
+    private double Refine(Span<Complex> x, Complex t, int maxIterations, double tolerance, bool estimateCondition, out double condition)
     {
         condition = double.PositiveInfinity;
         var last = double.PositiveInfinity;
         for (var iteration = 0; iteration < maxIterations; iteration++)
         {
             _homotopy.Evaluate(x, t, _values, _jacobian);
-            var matrixNorm = ComplexLu.OneNorm(_jacobian, _n);
+            var matrixNorm = estimateCondition ? ComplexLu.OneNorm(_jacobian, _n) : 0;
             if (!ComplexLu.Factor(_jacobian, _n, _pivots) || !double.IsFinite(matrixNorm))
             {
-                condition = double.PositiveInfinity;
                 return double.PositiveInfinity;
             }
 
@@ -239,7 +211,11 @@ internal sealed class PathTracker
             var converged = norm <= tolerance * (1 + MaxNorm(x));
             if (converged || iteration == maxIterations - 1)
             {
-                condition = matrixNorm * ComplexLu.EstimateInverseOneNorm(_jacobian, _n, _pivots, _work);
+                if (estimateCondition)
+                {
+                    condition = matrixNorm * ComplexLu.EstimateInverseOneNorm(_jacobian, _n, _pivots, _work);
+                }
+
                 break;
             }
         }
