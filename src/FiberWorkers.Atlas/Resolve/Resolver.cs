@@ -250,7 +250,26 @@ public sealed class Resolver
                 detoured[detours++] = index;
             }
 
-            if (_options.TwoSided && AroundFold(index, outcome.Lost.Solutions, target, rejections, ref paths) is { } real)
+            // Across a stored crossing, the pair the fold takes goes around first, alone: when it arrives non-real, a
+            // neighbour with two fewer on p's side answers; otherwise its ends are kept and the others go around too.
+            var lost = outcome.Lost.Solutions;
+            if (outcome.AcrossCrossing && _options.TwoSided)
+            {
+                var pair = PairAround(index, candidates[..found], normalized, target, rejections, ref paths);
+                if (pair.Answer is { } fewer)
+                {
+                    return Accept(fewer.Solutions, fewer.Index, predicted, rejections, paths, target);
+                }
+
+                if (pair.Ends is not { } ends)
+                {
+                    continue;
+                }
+
+                lost = ends;
+            }
+
+            if (_options.TwoSided && AroundFold(index, lost, target, rejections, ref paths) is { } real)
             {
                 // All arriving real proves the highest count, unless a stored crossing lies in between: there a pair of
                 // the sample's non-real solutions may have turned real too, which no track from it can see.
@@ -279,9 +298,9 @@ public sealed class Resolver
     /// <summary>
     /// Tracks real solutions of a start sample to the query along two straight segments through the segment's midpoint
     /// moved off the real plane by half the segment's length (box-normalized), so that no path meets a real fold.
-    /// Solutions whose real-only paths already arrived certified real (<paramref name="arrived"/>) keep those ends and
-    /// only the others take the detour (on the four-bus microgrid a fold takes one pair, so two paths instead of all);
-    /// when none arrived, or one arrived uncertified, every real solution takes it. Returns the endpoints certified real
+    /// Solutions whose paths already arrived certified (<paramref name="arrived"/>: real-only tracks, or a pair taken
+    /// around before) keep those ends and only the others take the detour (on the four-bus microgrid a fold takes one
+    /// pair, so two paths instead of all); when none arrived, or one arrived uncertified, every real solution takes it. Returns the endpoints certified real
     /// when every detoured path arrives and every endpoint, old and new together, is a certified, distinct zero whose
     /// reality is decided; else null, with the reason among the rejections. Both ways rest on the same premise as the
     /// real-only track (the sample's non-real solutions stay non-real over the short way); the arrived ends and the
@@ -290,7 +309,45 @@ public sealed class Resolver
     private IReadOnlyList<FiberPoint>? AroundFold(int index, IReadOnlyList<FiberPoint> arrived, Complex[] target, List<string> rejections, ref int paths)
     {
         var sample = _samples.Samples[index];
-        var from = ToComplex([.. sample.Point]);
+        var solutions = Solutions(sample);
+        var keep = arrived.Count > 0 && arrived.All(c => c.Certified && c.Certificate.Reality is Reality.Real or Reality.NonReal) ? arrived : [];
+        var detoured = new List<int>(solutions.Count);
+        for (var r = 0; r < solutions.Count; r++)
+        {
+            if (!keep.Any(c => c.PathIndex == r))
+            {
+                detoured.Add(r);
+            }
+        }
+
+        var around = Around(index, solutions, detoured, target, rejections, ref paths);
+        if (around is null)
+        {
+            return null;
+        }
+
+        var ends = new List<(int PathIndex, Complex[] Values)>(solutions.Count);
+        ends.AddRange(keep.Select(c => (c.PathIndex, c.Values)));
+        ends.AddRange(around);
+        var certified = _solver.Certify(target, ends);
+        if (!certified.All(c => c.Certified))
+        {
+            rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
+            return null;
+        }
+
+        return [.. certified.Where(c => c.Certificate.Reality == Reality.Real)];
+    }
+
+    /// <summary>
+    /// The sample's solutions <paramref name="detoured"/> tracked to the query along two straight segments through the
+    /// segment's midpoint moved off the real plane by half the segment's length (box-normalized): the ends, uncertified,
+    /// by solution index; null (with the reason among the rejections) when a path does not arrive.
+    /// </summary>
+    private List<(int PathIndex, Complex[] Values)>? Around(
+        int index, List<Complex[]> solutions, List<int> detoured, Complex[] target, List<string> rejections, ref int paths)
+    {
+        var from = ToComplex([.. _samples.Samples[index].Point]);
         var dimension = from.Length;
         var length = 0.0;
         for (var k = 0; k < dimension; k++)
@@ -305,17 +362,6 @@ public sealed class Resolver
             middle[k] = new Complex(0.5 * (from[k].Real + target[k].Real), 0.5 * Math.Sqrt(length) * _detour[k] * _samples.Box[k].Width);
         }
 
-        var solutions = Solutions(sample);
-        var keep = arrived.Count > 0 && arrived.All(c => c.Certified && c.Certificate.Reality == Reality.Real) ? arrived : [];
-        var detoured = new List<int>(solutions.Count);
-        for (var r = 0; r < solutions.Count; r++)
-        {
-            if (!keep.Any(c => c.PathIndex == r))
-            {
-                detoured.Add(r);
-            }
-        }
-
         paths += 2 * detoured.Count;
         var first = _solver.TrackSegment(from, middle, [.. detoured.Select(r => solutions[r])], Detour);
         var second = first.AllRegular ? _solver.TrackSegment(middle, target, [.. first.Paths.Select(p => p.Endpoint!)], Detour) : null;
@@ -325,17 +371,88 @@ public sealed class Resolver
             return null;
         }
 
-        var ends = new List<(int PathIndex, Complex[] Values)>(solutions.Count);
-        ends.AddRange(keep.Select(c => (c.PathIndex, c.Values)));
-        ends.AddRange(second.Paths.Select(p => (detoured[p.Index], p.Endpoint!)));
-        var certified = _solver.Certify(target, ends);
-        if (!certified.All(c => c.Certified))
+        return [.. second.Paths.Select(p => (detoured[p.Index], p.Endpoint!))];
+    }
+
+    /// <summary>
+    /// Across a stored crossing: the sample's two closest real solutions — the pair a fold next to it takes — tracked
+    /// around the fold alone. When both arrive certified and non-real, p holds at most two fewer real solutions than the
+    /// sample (its other real ones are that many at most, and its non-real ones stay non-real over the short way, the
+    /// premise of every answer here); the nearest neighbour on p's side holding two fewer, tracked real-only to p and
+    /// accepted, then holds at least as many: that count, and its solutions, are the answer. Otherwise the pair's
+    /// certified ends are returned for the detour of the others to keep (two pairs may have left at once, or the
+    /// pair arrived real), or neither when a path of the pair failed (the reason among the rejections).
+    /// </summary>
+    private ((int Index, IReadOnlyList<FiberPoint> Solutions)? Answer, IReadOnlyList<FiberPoint>? Ends) PairAround(
+        int index, ReadOnlySpan<int> neighbours, ReadOnlySpan<double> normalized, Complex[] target, List<string> rejections, ref int paths)
+    {
+        var solutions = Solutions(_samples.Samples[index]);
+        if (solutions.Count < 2)
         {
-            rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
-            return null;
+            return (null, []);
         }
 
-        return [.. certified.Where(c => c.Certificate.Reality == Reality.Real)];
+        var (a, b) = ClosestPair(solutions);
+        var ends = Around(index, solutions, [a, b], target, rejections, ref paths);
+        var pair = ends is null ? null : _solver.Certify(target, ends);
+        if (pair is null || !pair.All(c => c.Certified))
+        {
+            if (pair is not null)
+            {
+                rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
+            }
+
+            return (null, null);
+        }
+
+        if (!pair.All(c => c.Certificate.Reality == Reality.NonReal))
+        {
+            return (null, pair);
+        }
+
+        var fewer = solutions.Count - 2;
+        foreach (var other in neighbours)
+        {
+            if (_samples.Labels[other] != fewer)
+            {
+                continue;
+            }
+
+            var outcome = Track(other, normalized, target, rejections, ref paths);
+            if (outcome.Accepted)
+            {
+                return ((other, outcome.Solutions), null);
+            }
+
+            // A neighbour that a stored crossing separates from p was not tracked: the next one may lie on p's side.
+            if (!outcome.AcrossCrossing)
+            {
+                return (null, pair);
+            }
+        }
+
+        rejections.Add($"no neighbour on the point's side holds the {fewer} real solutions left when a pair from {SampleName(index)} turned non-real around the fold");
+        return (null, pair);
+    }
+
+    /// <summary>The two solutions closest to each other, relative to their size (the first such pair on ties).</summary>
+    private static (int A, int B) ClosestPair(List<Complex[]> solutions)
+    {
+        var best = (A: 0, B: 1);
+        var closest = double.PositiveInfinity;
+        for (var i = 0; i < solutions.Count; i++)
+        {
+            for (var j = i + 1; j < solutions.Count; j++)
+            {
+                var distance = Distance(solutions[i], solutions[j]) / (1 + Math.Max(Norm(solutions[i]), Norm(solutions[j])));
+                if (distance < closest)
+                {
+                    (best, closest) = ((i, j), distance);
+                }
+            }
+        }
+
+        return best;
     }
 
     /// <summary>

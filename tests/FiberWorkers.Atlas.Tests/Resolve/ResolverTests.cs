@@ -140,6 +140,29 @@ public sealed class ResolverTests
     }
 
     [Fact]
+    public void Across_a_stored_crossing_only_the_closest_pair_goes_around_and_a_neighbour_with_fewer_answers()
+    {
+        // Just outside the cubic's three-root region, the three-root neighbours lie across stored crossings. Their two
+        // closest roots — the pair that meets at the fold — go around it alone, arrive non-real, and a one-root
+        // neighbour on the query's side answers: two paths around (two legs each) and one real-only path, instead of
+        // all three around. The count must still follow the discriminant rule, 1.
+        using var atlas = new TempAtlas("pair");
+        using var store = atlas.Open();
+        var snapshot = SweepCubic(store, "pair.db");
+        var resolver = AtlasResolver.Create(store, snapshot);
+        var byPair = 0;
+        foreach (var (b, c) in NearCubicLocus(seed: 31, outside: true))
+        {
+            var answer = resolver.Ask([b, c]);
+            Assert.True(answer.RealCount == 1, $"at ({b}, {c}): {answer.Method} gave {answer.RealCount}, the discriminant says 1");
+            var across = answer.Rejections.Any(r => r.Contains("a stored crossing lies between", StringComparison.Ordinal));
+            byPair += answer.Method == "real-track" && across && answer.PathsTracked == (2 * 2) + 1 ? 1 : 0;
+        }
+
+        Assert.True(byPair > 0, "no query across a stored crossing was answered by the closest pair alone");
+    }
+
+    [Fact]
     public void Full_solves_from_relay_fibers_equal_full_solves_from_the_start_fiber()
     {
         using var atlas = new TempAtlas("microgrid3-relay");
