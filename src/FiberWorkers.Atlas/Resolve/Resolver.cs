@@ -475,8 +475,9 @@ public sealed class Resolver
     }
 
     /// <summary>
-    /// The nearest neighbour holding exactly the survivors' count, tracked to the query: its certified solutions when
-    /// they are the survivors', else null (with the reason among the rejections).
+    /// The nearest neighbour on the query's side (no stored crossing between) holding exactly the survivors' count,
+    /// tracked to the query: its certified solutions when they are the survivors', else null (with the reason among the
+    /// rejections).
     /// </summary>
     private (int Index, IReadOnlyList<FiberPoint> Solutions)? OtherSide(
         Survivors survivors, ReadOnlySpan<int> neighbours, ReadOnlySpan<double> normalized, Complex[] target, List<string> rejections, ref int paths)
@@ -492,6 +493,12 @@ public sealed class Resolver
             var outcome = Track(index, normalized, target, rejections, ref paths);
             if (!outcome.Accepted)
             {
+                // One that a stored crossing separates from p was not tracked: the next one may lie on p's side.
+                if (outcome.AcrossCrossing)
+                {
+                    continue;
+                }
+
                 return null;
             }
 
@@ -504,7 +511,7 @@ public sealed class Resolver
             return null;
         }
 
-        rejections.Add($"no neighbour holds the {fewer} solutions that survived the fold from {SampleName(survivors.Sample)}");
+        rejections.Add($"no neighbour on the point's side holds the {fewer} solutions that survived the fold from {SampleName(survivors.Sample)}");
         return null;
     }
 
