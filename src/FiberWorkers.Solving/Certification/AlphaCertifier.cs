@@ -88,6 +88,10 @@ internal sealed class AlphaCertifier
         _magnitudes = new double[_n];
     }
 
+    /// <summary>True when this certifier is for <paramref name="compiled"/> at exactly <paramref name="parameters"/>.</summary>
+    public bool Serves(CompiledSystem compiled, ReadOnlySpan<Complex> parameters) =>
+        ReferenceEquals(compiled, _system) && parameters.SequenceEqual(_parameters);
+
     /// <summary>True when every coefficient of f is real (so reality can be decided).</summary>
     public bool RealCoefficients => _realCoefficients;
 

@@ -30,6 +30,13 @@ public sealed class FiberSolver
     /// <summary>A segment's start with ‖F‖∞ at most this (relative to 1 + ‖x‖∞) is tracked as given.</summary>
     private const double StartResidual = 1e-13;
 
+    /// <summary>
+    /// The last certifier this thread built: queries certify several sets of points at one parameter point (real-only
+    /// ends, ends around a fold, a neighbour's), and the certifier's coefficient magnitudes and norm are per point.
+    /// </summary>
+    [ThreadStatic]
+    private static AlphaCertifier? t_certifier;
+
     private readonly CompiledSystem _affine;
     private readonly CompiledSystem _projective;
     private readonly CoefficientLayout _layout;
@@ -219,7 +226,8 @@ public sealed class FiberSolver
     {
         ArgumentNullException.ThrowIfNull(points);
         RequireParameters(parameters);
-        var certifier = new AlphaCertifier(_layout, _affine, parameters);
+        var certifier = t_certifier is { } last && last.Serves(_affine, parameters) ? last : new AlphaCertifier(_layout, _affine, parameters);
+        t_certifier = certifier;
         var checks = new (Certificate Certificate, double Residual, double Condition)[points.Count];
         for (var i = 0; i < points.Count; i++)
         {

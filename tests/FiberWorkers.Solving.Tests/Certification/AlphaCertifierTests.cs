@@ -141,6 +141,37 @@ public sealed class AlphaCertifierTests
     }
 
     [Fact]
+    public void Certificates_at_a_point_do_not_depend_on_what_the_thread_certified_before()
+    {
+        // The solver reuses the thread's last certifier for the same parameter point. Interleaving points of the
+        // two-bus line (P = 1: a real pair; P = 2.5: a non-real pair) with another solver of the same family must give
+        // exactly the verdicts and figures of a fresh solver at each point.
+        var family = TestFamilies.Example("two-bus");
+        var (s1, s2) = (1.0 / 1.7, 2.5 / 1.7);
+        var c1 = Math.Sqrt(1 - (s1 * s1));
+        var c2 = Math.Sqrt((s2 * s2) - 1);
+        (int, Complex[])[] real = [(0, [c1, s1]), (1, [-c1, s1])];
+        (int, Complex[])[] nonReal = [(0, [new Complex(0, c2), s2]), (1, [new Complex(0, -c2), s2])];
+        var reused = new FiberSolver(family.System);
+        var other = new FiberSolver(family.System);
+
+        var sequence = new[] { (1.0, real), (1.0, real), (2.5, nonReal), (1.0, real), (2.5, nonReal), (2.5, nonReal) };
+        foreach (var (power, points) in sequence)
+        {
+            other.Certify([power == 1.0 ? 2.5 : 1.0], power == 1.0 ? nonReal : real);
+            var got = reused.Certify([power], points);
+            var fresh = new FiberSolver(family.System).Certify([power], points);
+            for (var i = 0; i < got.Count; i++)
+            {
+                Assert.Equal(fresh[i].Certificate, got[i].Certificate);
+                Assert.Equal(fresh[i].Residual, got[i].Residual);
+                Assert.Equal(fresh[i].Condition, got[i].Condition);
+                Assert.Equal(power == 1.0 ? Reality.Real : Reality.NonReal, got[i].Certificate.Reality);
+            }
+        }
+    }
+
+    [Fact]
     public void A_complex_pair_with_a_tiny_imaginary_part_is_certified_non_real_not_real()
     {
         // Our own cubic (x − 1)((x − 2)² + 1e-6) has roots 1 and 2 ± 0.001i: the pair is 0.002 from its own
