@@ -303,9 +303,9 @@ public sealed class Resolver
     /// moved off the real plane by half the segment's length (box-normalized), so that no path meets a real fold.
     /// Solutions whose paths already arrived certified (<paramref name="arrived"/>: real-only tracks, or a pair taken
     /// around before) keep those ends and only the others take the detour (on the four-bus microgrid a fold takes one
-    /// pair, so two paths instead of all); when none arrived, or one arrived uncertified, every real solution takes it. Returns the endpoints certified real
-    /// when every detoured path arrives and every endpoint, old and new together, is a certified, distinct zero whose
-    /// reality is decided; else null, with the reason among the rejections. Both ways rest on the same premise as the
+    /// pair, so two paths instead of all); when none arrived, or one arrived uncertified, every real solution takes it.
+    /// Returns the endpoints certified real when every detoured path arrives and every endpoint, old and new together,
+    /// is a certified, distinct zero whose reality is decided; else null, with the reason among the rejections. Both ways rest on the same premise as the
     /// real-only track (the sample's non-real solutions stay non-real over the short way); the arrived ends and the
     /// detoured ones are all certified solutions at the query, and certified distinct together.
     /// </summary>
