@@ -195,6 +195,24 @@ internal static class BenchCommand
                 }
 
                 writer.WriteNumber("agreement", report.Agreement);
+                writer.WriteStartArray("disagreements");
+                foreach (var (point, resolveCount, method, fullCount) in report.Disagreements)
+                {
+                    writer.WriteStartObject();
+                    writer.WriteStartArray("point");
+                    foreach (var value in point)
+                    {
+                        writer.WriteNumberValue(value);
+                    }
+
+                    writer.WriteEndArray();
+                    writer.WriteNumber("resolveRealCount", resolveCount);
+                    writer.WriteString("method", method);
+                    writer.WriteNumber("fullRealCount", fullCount);
+                    writer.WriteEndObject();
+                }
+
+                writer.WriteEndArray();
                 writer.WriteNumber("relayFibers", report.RelayFibers);
                 writer.WriteNumber("relaySeconds", Math.Round(report.RelaySeconds, 3));
                 writer.WriteNumber("meanRealCount", Math.Round(report.MeanRealCount, 3));

@@ -11,7 +11,11 @@ namespace FiberWorkers.Cli.Commands;
 /// <summary>Times real-only resolves against full solves on the same random points, and checks they agree.</summary>
 internal static class ResolveBenchmark
 {
-    public sealed record Report(int Points, double ResolveMean, double ResolveP99, double FullMean, double FullP99, double FallbackRate, double Agreement, double MeanRealCount, int RootCount, double RealTrackMean, double RealTrackP50, int RelayFibers, double RelaySeconds);
+    public sealed record Report(int Points, double ResolveMean, double ResolveP99, double FullMean, double FullP99, double FallbackRate, double Agreement, double MeanRealCount, int RootCount, double RealTrackMean, double RealTrackP50, int RelayFibers, double RelaySeconds)
+    {
+        /// <summary>Points whose two answers differ: the point, the resolve's count and method, the full solve's count.</summary>
+        public IReadOnlyList<(double[] Point, int ResolveCount, string Method, int FullCount)> Disagreements { get; init; } = [];
+    }
 
     /// <summary>
     /// Points answered one way before the same points are solved the other way: each kind of query runs on caches
@@ -47,6 +51,7 @@ internal static class ResolveBenchmark
         var realCounts = 0L;
         var rootCount = 0;
         var fastTimes = new List<double>(count);
+        var disagreements = new List<(double[] Point, int ResolveCount, string Method, int FullCount)>();
         var clock = new Stopwatch();
         var answers = new ResolveAnswer[count];
         var fulls = new FiberSolution[count];
@@ -84,6 +89,10 @@ internal static class ResolveBenchmark
             var same = real.Length == answer.RealCount
                 && answer.Solutions.All(s => real.Any(r => Close(r.Values, s.Values)));
             agree += same ? 1 : 0;
+            if (!same)
+            {
+                disagreements.Add((points[i], answer.RealCount, answer.Method, real.Length));
+            }
         }
 
         return new Report(
@@ -99,7 +108,10 @@ internal static class ResolveBenchmark
             fastTimes.Count > 0 ? fastTimes.Average() : double.NaN,
             fastTimes.Count > 0 ? Percentile([.. fastTimes], 0.5) : double.NaN,
             relays,
-            relaySeconds);
+            relaySeconds)
+        {
+            Disagreements = disagreements,
+        };
     }
 
     private static double[][] Draw(AtlasSnapshot snapshot, int count, double nearShare, SeededRandom random)
