@@ -21,6 +21,14 @@ public sealed record MonodromyOptions
     /// <summary>Run the trace test on the fiber found. Default true.</summary>
     public bool TraceTest { get; init; } = true;
 
+    /// <summary>
+    /// Place the first solution in a fiber of the family itself where its equations allow it (parameter-free
+    /// equations with an irreducible solution set, the others affine-linear in the parameters: see
+    /// <c>FiberPlacement</c>), instead of adding auxiliary constants to every equation. Default true; false always
+    /// augments (for comparisons).
+    /// </summary>
+    public bool OwnFiberPlacement { get; init; } = true;
+
     /// <summary>Relative tolerance of the trace test's linearity check. Default 1e-7.</summary>
     public double TraceTolerance { get; init; } = 1e-7;
 }

@@ -1,4 +1,5 @@
 using System.Numerics;
+using System.Runtime.ExceptionServices;
 using FiberWorkers.Algebra.Evaluation;
 using FiberWorkers.Algebra.LinearAlgebra;
 using FiberWorkers.Algebra.Polynomials;
@@ -15,23 +16,27 @@ namespace FiberWorkers.Solving.Monodromy;
 /// from one solution x₀ of a base system, carry the known solutions along the edges of a homotopy graph (the base
 /// point and random complex parameter points, joined pairwise by straight segments) and keep every new endpoint,
 /// until the known sets are closed under the graph's loops and the trace test passes, or further loops add
-/// nothing. A family that cannot place x₀ in a fiber by choosing its own
-/// parameters gets auxiliary parameters q on the constant terms, F(x; p) + q with q₀ = −F(x₀; p₀); the fiber at
-/// q = 0 is then reached by one parameter homotopy with endgame (and a detour through a random point when paths
-/// of it fail). Batches of segment tracks run in parallel; results are merged in a fixed order, so a seed gives the
-/// same fiber on any number of threads.
+/// nothing. A family that cannot place x₀ in a fiber by choosing its own parameters gets auxiliary parameters q on
+/// the constant terms, F(x; p) + q with q₀ = −F(x₀; p₀); the fiber at q = 0 is then reached by one parameter homotopy
+/// with endgame (and a detour through a random point when paths of it fail). Families whose parameter-free equations
+/// have an irreducible solution set and whose other equations are affine-linear in the parameters (power flow with
+/// unit voltages) place x₀ in a fiber of their own instead (<see cref="FiberPlacement"/>). Segment tracks run on all
+/// threads as soon as they exist; results are merged in the order the tracks were created, so a seed gives the same
+/// fiber on any number of threads.
 /// </summary>
 internal sealed class MonodromySolver
 {
     private readonly PolynomialSystem _system;
     private readonly SolveOptions _solve;
     private readonly MonodromyOptions _options;
+    private readonly TrackerOptions _edgeTracker;
 
     public MonodromySolver(PolynomialSystem system, SolveOptions solve, MonodromyOptions options)
     {
         _system = system;
         _solve = solve;
         _options = options;
+        _edgeTracker = EdgeTracker(solve.Tracker);
     }
 
     public (StartFiber Fiber, MonodromyReport Report) Solve(string familyHash, Complex[] basePoint)
@@ -44,10 +49,17 @@ internal sealed class MonodromySolver
             x0[i] = random.NextComplexGaussian();
         }
 
-        // Place x₀ in a fiber: by the family's own parameters when it is linear in them with enough of them,
-        // otherwise with auxiliary constants q₀ = −F(x₀; p₀).
+        // Place x₀ in a fiber: in the family's own where its shape allows (FiberPlacement), otherwise with auxiliary
+        // constants q₀ = −F(x₀; p₀).
         var parameters = (Complex[])basePoint.Clone();
-        var augmented = !TrySolveLinearParameters(x0, parameters);
+        var drawn = (Complex[])x0.Clone();
+        var augmented = !(_options.OwnFiberPlacement && FiberPlacement.TryPlace(_system, x0, parameters));
+        if (augmented)
+        {
+            // Placement may have moved x₀ and some parameters before it gave up.
+            basePoint.CopyTo(parameters, 0);
+            drawn.CopyTo(x0, 0);
+        }
         var system = augmented ? _system.WithConstantParameters() : _system;
         var basis = augmented ? Augment(x0, parameters) : parameters;
 
@@ -218,22 +230,285 @@ internal sealed class MonodromySolver
     private static StartFiber Fiber(string familyHash, PolynomialSystem system, Complex[] point, List<Complex[]> solutions, long tracks) =>
         new(familyHash, system.Unknowns, point, solutions, new StartFiberProvenance("monodromy", 0, tracks, "stopping-rule", string.Empty));
 
-    /// <summary>Edge endpoints for a batch, in batch order (null where a track failed).</summary>
-    private Complex[]?[] TrackBatch(List<EdgeTask> batch, HomotopyGraph graph, CompiledSystem projective, ProjectiveChart chart)
+    /// <summary>
+    /// Carries the pending tasks, and every task their results create, until none is left (the graph is at rest)
+    /// or <paramref name="complete"/> holds. Tracks run on up to the solver's thread count as soon as their task
+    /// exists; results are merged strictly in the order the tasks were created, so the graph, its solutions and the
+    /// counts returned do not depend on the threads or their timing. A task whose matching is already known when it
+    /// is merged (a track from the other end found the pair) is dropped; one found so when a thread picks it up is
+    /// not tracked at all, which changes only the work done, not the graph.
+    /// </summary>
+    private (long Tracks, long Failed, bool Done) Carry(
+        HomotopyGraph graph, List<EdgeTask> pending, CompiledSystem projective, ProjectiveChart chart, Func<bool> complete)
     {
-        var ends = new Complex[]?[batch.Count];
-        var threads = Math.Max(1, Math.Min(_solve.MaxDegreeOfParallelism, batch.Count));
-        Parallel.For(
-            0,
-            batch.Count,
-            new ParallelOptions { MaxDegreeOfParallelism = threads },
-            (k, _) =>
+        var carrier = new Carrier(this, graph, pending, projective, chart, complete);
+        var threads = Math.Clamp(_solve.MaxDegreeOfParallelism, 1, Environment.ProcessorCount);
+        var helpers = new Task[threads - 1];
+        for (var w = 0; w < helpers.Length; w++)
+        {
+            helpers[w] = Task.Factory.StartNew(carrier.Work, CancellationToken.None, TaskCreationOptions.LongRunning, TaskScheduler.Default);
+        }
+
+        carrier.Work();
+        Task.WaitAll(helpers);
+        carrier.ThrowIfFaulted();
+        return (carrier.Tracks, carrier.Failed, carrier.Done);
+    }
+
+    /// <summary>
+    /// The shared state of <see cref="Carry"/>. Every thread runs <see cref="Work"/>: under one lock it merges the
+    /// results that are next in task order, then takes the next task and tracks it outside the lock. There is no
+    /// merging thread to hand results to: whichever thread finds the next results ready merges them. A merge that
+    /// adds a base solution holds further merges until the completeness check on that base fiber has run (outside
+    /// the lock, while the other threads keep tracking).
+    /// </summary>
+    private sealed class Carrier
+    {
+        private readonly MonodromySolver _solver;
+        private readonly HomotopyGraph _graph;
+        private readonly List<EdgeTask> _created;
+        private readonly CompiledSystem _projective;
+        private readonly ProjectiveChart _chart;
+        private readonly Func<bool> _complete;
+        private readonly List<EdgeTask> _tasks;
+        private readonly List<Complex[]?> _ends = [];
+        private readonly List<TaskState> _states = [];
+        private readonly List<Complex[]> _base;
+        private readonly object _gate = new();
+        private int _dispatched;
+        private int _merged;
+        private bool _checking;
+        private bool _stop;
+        private Exception? _fault;
+
+        public Carrier(MonodromySolver solver, HomotopyGraph graph, List<EdgeTask> pending, CompiledSystem projective, ProjectiveChart chart, Func<bool> complete)
+        {
+            _solver = solver;
+            _graph = graph;
+            _created = pending;
+            _projective = projective;
+            _chart = chart;
+            _complete = complete;
+            _base = graph.Solutions[0];
+            _tasks = [];
+            Append();
+        }
+
+        public long Tracks { get; private set; }
+
+        public long Failed { get; private set; }
+
+        public bool Done { get; private set; }
+
+        public void ThrowIfFaulted()
+        {
+            if (_fault is not null)
             {
-                var task = batch[k];
-                var (from, to) = graph.Ends(task.Edge, task.Forward);
-                ends[k] = AlongEdge(graph.Solutions[from][task.Source], graph.Points[from], graph.Points[to], projective, chart);
-            });
-        return ends;
+                ExceptionDispatchInfo.Throw(_fault);
+            }
+        }
+
+        public void Work()
+        {
+            var index = -1;
+            Complex[]? end = null;
+            // This thread's tracker for each edge, reused for every solution carried along it (either way).
+            var trackers = new List<PathTracker?>();
+            while (true)
+            {
+                Complex[] start = [];
+                var edge = 0;
+                var forward = true;
+                var check = false;
+                lock (_gate)
+                {
+                    if (index >= 0)
+                    {
+                        _ends[index] = end;
+                        _states[index] = TaskState.Tracked;
+                        index = -1;
+                    }
+
+                    while (true)
+                    {
+                        if (!_checking && !_stop)
+                        {
+                            check = MergeReady();
+                        }
+
+                        if (_stop)
+                        {
+                            Monitor.PulseAll(_gate);
+                            return;
+                        }
+
+                        if (check)
+                        {
+                            break;
+                        }
+
+                        if (_dispatched < _tasks.Count)
+                        {
+                            index = _dispatched++;
+                            var task = _tasks[index];
+                            if (_graph.Match(task.Edge, task.Forward, task.Source) != HomotopyGraph.Unknown)
+                            {
+                                _states[index] = TaskState.Skipped;
+                                index = -1;
+                                continue;
+                            }
+
+                            _states[index] = TaskState.Running;
+                            var (a, _) = _graph.Ends(task.Edge, task.Forward);
+                            (start, edge, forward) = (_graph.Solutions[a][task.Source], task.Edge, task.Forward);
+                            while (trackers.Count <= edge)
+                            {
+                                trackers.Add(null);
+                            }
+
+                            if (trackers[edge] is null)
+                            {
+                                var (p, q) = _graph.Edges[edge];
+                                var homotopy = new ParameterHomotopy(_projective, _chart, _graph.Points[p], _graph.Points[q]);
+                                trackers[edge] = new PathTracker(homotopy.CreateEvaluator());
+                            }
+
+                            break;
+                        }
+
+                        Monitor.Wait(_gate);
+                    }
+                }
+
+                if (check)
+                {
+                    // The base fiber grew with the task merged last; the check decides before any later merge.
+                    var done = Guard(_complete);
+                    lock (_gate)
+                    {
+                        _checking = false;
+                        if (done)
+                        {
+                            Done = true;
+                            _stop = true;
+                        }
+
+                        Monitor.PulseAll(_gate);
+                    }
+
+                    continue;
+                }
+
+                var tracker = trackers[edge]!;
+                end = Guard(() => _solver.AlongEdge(tracker, start, forward, _chart));
+            }
+        }
+
+        /// <summary>Runs <paramref name="work"/>; on an exception records it and stops every thread.</summary>
+        private T? Guard<T>(Func<T> work)
+        {
+            try
+            {
+                return work();
+            }
+            catch (Exception exception)
+            {
+                lock (_gate)
+                {
+                    _fault ??= exception;
+                    _stop = true;
+                    Monitor.PulseAll(_gate);
+                }
+
+                return default;
+            }
+        }
+
+        /// <summary>
+        /// Merges the results next in task order (under the lock). True when the last one merged added a base
+        /// solution and the check is now due (merging is then held); stops the carrier at rest.
+        /// </summary>
+        private bool MergeReady()
+        {
+            var merged = false;
+            try
+            {
+                for (; _merged < _tasks.Count && _states[_merged] is TaskState.Tracked or TaskState.Skipped; _merged++)
+                {
+                    merged = true;
+                    var task = _tasks[_merged];
+                    if (_states[_merged] == TaskState.Skipped || _graph.Match(task.Edge, task.Forward, task.Source) != HomotopyGraph.Unknown)
+                    {
+                        continue;
+                    }
+
+                    Tracks++;
+                    if (_ends[_merged] is not { } end)
+                    {
+                        Failed++;
+                        _graph.SetMatch(task.Edge, task.Forward, task.Source, HomotopyGraph.Failed);
+                        continue;
+                    }
+
+                    _ends[_merged] = null;
+                    var (_, to) = _graph.Ends(task.Edge, task.Forward);
+                    var known = _graph.Solutions[to];
+                    var target = known.FindIndex(x => Close(x, end, MergeTolerance));
+                    var added = target < 0;
+                    if (added)
+                    {
+                        known.Add(end);
+                        target = known.Count - 1;
+                        _graph.Enqueue(to, target, _created);
+                        Append();
+                    }
+
+                    _graph.SetMatch(task.Edge, task.Forward, task.Source, target);
+                    _graph.SetMatch(task.Edge, !task.Forward, target, task.Source);
+                    if (added && ReferenceEquals(known, _base))
+                    {
+                        _merged++;
+                        _checking = true;
+                        return true;
+                    }
+                }
+
+                if (_merged == _tasks.Count)
+                {
+                    // At rest: every task created has been merged and none is running.
+                    _stop = true;
+                }
+
+                return false;
+            }
+            finally
+            {
+                if (merged)
+                {
+                    Monitor.PulseAll(_gate);
+                }
+            }
+        }
+
+        private void Append()
+        {
+            foreach (var task in _created)
+            {
+                _tasks.Add(task);
+                _ends.Add(null);
+                _states.Add(TaskState.Queued);
+            }
+
+            _created.Clear();
+        }
+    }
+
+    private enum TaskState : byte
+    {
+        Queued,
+        Running,
+        Tracked,
+        Skipped,
     }
 
     /// <summary>What one search of a homotopy graph did.</summary>
@@ -371,35 +646,12 @@ internal sealed class MonodromySolver
         var done = false;
         while (true)
         {
-            while (pending.Count > 0 && !(done = complete(solutions)))
+            if (pending.Count > 0 && !done)
             {
-                var batch = pending.Where(t => graph.Match(t.Edge, t.Forward, t.Source) == HomotopyGraph.Unknown).ToList();
-                pending.Clear();
-                var ends = TrackBatch(batch, graph, projective, chart);
-                tracks += batch.Count;
-                for (var k = 0; k < batch.Count; k++)
-                {
-                    var task = batch[k];
-                    if (ends[k] is not { } end)
-                    {
-                        failedTracks++;
-                        graph.SetMatch(task.Edge, task.Forward, task.Source, HomotopyGraph.Failed);
-                        continue;
-                    }
-
-                    var (_, to) = graph.Ends(task.Edge, task.Forward);
-                    var known = graph.Solutions[to];
-                    var target = known.FindIndex(x => Close(x, end, MergeTolerance));
-                    if (target < 0)
-                    {
-                        known.Add(end);
-                        target = known.Count - 1;
-                        graph.Enqueue(to, target, pending);
-                    }
-
-                    graph.SetMatch(task.Edge, task.Forward, task.Source, target);
-                    graph.SetMatch(task.Edge, !task.Forward, target, task.Source);
-                }
+                var carried = Carry(graph, pending, projective, chart, () => complete(solutions));
+                tracks += carried.Tracks;
+                failedTracks += carried.Failed;
+                done = carried.Done;
             }
 
             done = done || complete(solutions);
@@ -465,22 +717,26 @@ internal sealed class MonodromySolver
         return joined;
     }
 
-    private Complex[]? AlongEdge(Complex[] start, Complex[] from, Complex[] to, CompiledSystem projective, ProjectiveChart chart)
+    /// <summary>
+    /// Carries <paramref name="start"/> along the edge whose homotopy <paramref name="tracker"/> tracks (from its
+    /// first node at t = 0 to its second at t = 1), forward or back; null when the track fails or ends at a point
+    /// the graph cannot use.
+    /// </summary>
+    private Complex[]? AlongEdge(PathTracker tracker, Complex[] start, bool forward, ProjectiveChart chart)
     {
         var x = new Complex[start.Length + 1];
         chart.Lift(start, x);
-        var homotopy = new ParameterHomotopy(projective, chart, from, to);
-        var tracker = new PathTracker(homotopy.CreateEvaluator());
-        if (!tracker.Track(x, 0, 1, EdgeTracker(_solve.Tracker)).Completed)
+        var (from, to) = forward ? (Complex.Zero, Complex.One) : (Complex.One, Complex.Zero);
+        if (!tracker.Track(x, from, to, _edgeTracker).Completed)
         {
             return null;
         }
 
         // Refine in the chart, where solutions with large coordinates stay well scaled, and judge the point with
         // a chart-independent, row-equilibrated condition number; only then leave the chart.
-        tracker.Refine(x, 1, 4, 1e-15);
+        tracker.Refine(x, to, 4, 1e-15);
         if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
-            || !(tracker.ProjectiveCondition(x, 1) <= _solve.Endgame.SingularConditionLimit))
+            || !(tracker.ProjectiveCondition(x, to) <= _solve.Endgame.SingularConditionLimit))
         {
             return null;
         }
@@ -538,73 +794,18 @@ internal sealed class MonodromySolver
         return [.. parameters, .. values.Select(v => -v)];
     }
 
-    /// <summary>
-    /// When F is affine-linear in p with at least n parameters, chooses p so that F(x₀; p) = 0: the last m − n
-    /// parameters stay random and the first n solve the n×n linear system. False when that is impossible.
-    /// </summary>
-    private bool TrySolveLinearParameters(Complex[] x0, Complex[] parameters)
-    {
-        var n = _system.UnknownCount;
-        var m = _system.ParameterCount;
-        if (m < n || _system.ParameterDegree > 1)
-        {
-            return false;
-        }
-
-        var compiled = _system.Compile();
-        var workspace = compiled.CreateWorkspace();
-        var values = new Complex[n];
-        var jacobian = new Complex[n * n];
-        var parameterJacobian = new Complex[n * m];
-        var zero = new Complex[m];
-        for (var k = n; k < m; k++)
-        {
-            zero[k] = parameters[k];
-        }
-
-        // F(x₀; p) = F(x₀; p_fixed) + A·p_free where A is ∂F/∂p restricted to the first n parameters (exact: F is affine in p).
-        compiled.Evaluate(x0, zero, values, jacobian, parameterJacobian, workspace);
-        var matrix = new Complex[n * n];
-        for (var i = 0; i < n; i++)
-        {
-            for (var k = 0; k < n; k++)
-            {
-                matrix[(i * n) + k] = parameterJacobian[(i * m) + k];
-            }
-        }
-
-        var pivots = new int[n];
-        var norm = ComplexLu.OneNorm(matrix, n);
-        if (!ComplexLu.Factor(matrix, n, pivots)
-            || norm * ComplexLu.EstimateInverseOneNorm(matrix, n, pivots, new Complex[2 * n]) > 1e10)
-        {
-            return false;
-        }
-
-        for (var i = 0; i < n; i++)
-        {
-            values[i] = -values[i];
-        }
-
-        ComplexLu.Solve(matrix, n, pivots, values);
-        for (var k = 0; k < n; k++)
-        {
-            parameters[k] = values[k];
-        }
-
-        return true;
-    }
-
+    /// <summary>max |aᵢ − bᵢ| ≤ tolerance · max(1, max |aᵢ|), compared in squares.</summary>
     private static bool Close(ReadOnlySpan<Complex> a, ReadOnlySpan<Complex> b, double tolerance)
     {
         var scale = 1.0;
         var distance = 0.0;
         for (var i = 0; i < a.Length; i++)
         {
-            distance = Math.Max(distance, Complex.Abs(a[i] - b[i]));
-            scale = Math.Max(scale, a[i].Magnitude);
+            var (re, im) = (a[i].Real - b[i].Real, a[i].Imaginary - b[i].Imaginary);
+            distance = Math.Max(distance, (re * re) + (im * im));
+            scale = Math.Max(scale, (a[i].Real * a[i].Real) + (a[i].Imaginary * a[i].Imaginary));
         }
 
-        return distance <= tolerance * scale;
+        return distance <= tolerance * tolerance * scale;
     }
 }

@@ -1,5 +1,6 @@
 using FiberWorkers.Algebra.Families;
 using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.Monodromy;
 using FiberWorkers.Solving.StartFibers;
 using FiberWorkers.Solving.Tests.References;
 using FiberWorkers.Testing;
@@ -113,9 +114,12 @@ public sealed class MonodromyMicrogridTests
         // At this seed two paths of the straight homotopy from the augmented base point to q = 0 meet near a
         // branch point and fail together; the fiber then lost 2 of its 30 (the count both methods find for five
         // equal lines, above). The whole fiber takes a detour through a random point, and the union has all 30.
+        // (The family itself needs no constants, so they are asked for here.)
         var family = TestFamilies.CompleteMicrogrid(5, (_, _) => 1.0);
 
-        var result = Monodromy(family, seed: 2_096);
+        var result = Monodromy(family, seed: 2_096, options: MonodromyOptions.Default with { OwnFiberPlacement = false });
+
+        Assert.True(result.Monodromy!.Augmented);
 
         Assert.Equal(30, result.Monodromy!.BaseRootCount);
         Assert.Equal(30, result.Fiber.RootCount);
@@ -134,11 +138,12 @@ public sealed class MonodromyMicrogridTests
         return (start, totalDegree);
     }
 
-    internal static StartFiberResult Monodromy(FamilyDefinition family, int seed, int threads = 2) =>
+    internal static StartFiberResult Monodromy(FamilyDefinition family, int seed, int threads = 2, MonodromyOptions? options = null) =>
         StartFiberFactory.Create(
             family.System,
             family.ContentHash,
             family.Parameters,
             StartFiberMethod.Monodromy,
-            new SolveOptions { Seed = seed, MaxDegreeOfParallelism = threads });
+            new SolveOptions { Seed = seed, MaxDegreeOfParallelism = threads },
+            options);
 }

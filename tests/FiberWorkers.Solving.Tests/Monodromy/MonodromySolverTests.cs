@@ -122,16 +122,22 @@ public sealed class MonodromySolverTests
         Assert.Equal("stopping-rule", result.Fiber.Provenance.Completeness);
     }
 
-    [Fact]
-    public void The_report_adds_up()
+    [Theory]
+    [InlineData(true)]
+    [InlineData(false)]
+    public void The_report_adds_up(bool ownFiber)
     {
+        // The five-bus microgrid's circles are parameter-free irreducible quadrics and its power equations are
+        // linear in P, so x₀ is placed in a fiber of the family itself; asked not to, the search adds constants.
         var family = TestFamilies.Example("microgrid5");
 
-        var (fiber, report) = Run(family, 8_501, MonodromyOptions.Default);
+        var (fiber, report) = Run(family, 8_501, MonodromyOptions.Default with { OwnFiberPlacement = ownFiber });
 
-        Assert.True(report.Augmented);
-        // One path per base solution to q = 0 (no path failed here, so no detour was needed).
-        Assert.Equal(report.BaseRootCount, report.FinalPaths);
+        Assert.Equal(!ownFiber, report.Augmented);
+        // Augmented: one path per base solution to q = 0 (no path failed here, so no detour was needed). Placed:
+        // the base fiber is the family's own and needs no final homotopy.
+        Assert.Equal(ownFiber ? 0 : report.BaseRootCount, report.FinalPaths);
+        Assert.Equal(70, fiber.RootCount);
         Assert.InRange(report.FailedTracks, 0, report.SegmentTracks);
         Assert.Equal(report.Edges - report.Nodes + 1, report.Loops);
         // The search ended at rest (trace test): every edge matches the solutions at its two ends, and each
@@ -146,6 +152,7 @@ public sealed class MonodromySolverTests
 
     [Theory]
     [InlineData("microgrid5", 8_601)]
+    [InlineData("microgrid4", 8_603)]
     [InlineData("cyclic-6", 8_602)]
     public void The_same_seed_gives_identical_fibers_with_one_and_two_threads(string name, int seed)
     {
