@@ -39,19 +39,24 @@ public sealed class ClusterClient : IDisposable
 
     /// <summary>
     /// Submits a sweep and streams its progress until it commits; returns the outcome. While the coordinator is
-    /// unreachable (restarting) the client resubmits the same request, which joins the resumed sweep.
+    /// unreachable (restarting) the client keeps trying: once it holds the sweep's id it watches that sweep again
+    /// (a restarted coordinator resumes it, or reports it committed when it finished before the restart), and only
+    /// when the coordinator says the sweep is not running there does it resubmit the request, which resumes it.
+    /// Resubmitting at once instead would start a second sweep, and a second version, of a sweep that had committed
+    /// just before the coordinator went away.
     /// </summary>
     public async Task<SweepOutcome> SweepAsync(SubmitSweepRequest request, IProgress<SweepProgressUpdate>? progress = null, CancellationToken cancellation = default)
     {
         ArgumentNullException.ThrowIfNull(request);
         var lastContact = DateTimeOffset.UtcNow;
         var delay = TimeSpan.FromMilliseconds(200);
+        long? sweepId = null;
         while (true)
         {
             try
             {
-                var ticket = await Coordinator.SubmitSweepAsync(request, cancellationToken: cancellation).ConfigureAwait(false);
-                using var call = Coordinator.WatchSweep(new WatchSweepRequest { SweepId = ticket.SweepId }, cancellationToken: cancellation);
+                sweepId ??= (await Coordinator.SubmitSweepAsync(request, cancellationToken: cancellation).ConfigureAwait(false)).SweepId;
+                using var call = Coordinator.WatchSweep(new WatchSweepRequest { SweepId = sweepId.Value }, cancellationToken: cancellation);
                 await foreach (var update in call.ResponseStream.ReadAllAsync(cancellation).ConfigureAwait(false))
                 {
                     lastContact = DateTimeOffset.UtcNow;
@@ -71,7 +76,12 @@ public sealed class ClusterClient : IDisposable
             catch (RpcException e) when (e.StatusCode is StatusCode.Unavailable or StatusCode.Internal or StatusCode.Cancelled or StatusCode.FailedPrecondition
                 && !cancellation.IsCancellationRequested && DateTimeOffset.UtcNow - lastContact < ReconnectPatience)
             {
-                // The coordinator went away (or is resuming): resubmitting joins the same sweep.
+                // The coordinator went away (or is resuming). Not running there (FailedPrecondition): the request is
+                // submitted again, which resumes the same sweep; otherwise the same sweep is watched again.
+                if (e.StatusCode == StatusCode.FailedPrecondition)
+                {
+                    sweepId = null;
+                }
             }
 
             await Task.Delay(delay, cancellation).ConfigureAwait(false);
