@@ -755,13 +755,17 @@ internal sealed class MonodromySolver
     /// solver's. Every endpoint is refined at its node and must be finite and well conditioned there, so a path that
     /// jumps still ends at a solution of that node's fiber: at worst a known one (a wasted track, or a matching the
     /// graph holds wrongly, which later loops make up for), never a false one. On the five-bus microgrid (seeds
-    /// 1–6, expected count 70) the graphs came out the same with 6 % fewer factorizations.
+    /// 1–6, expected count 70) the graphs came out the same with 6 % fewer factorizations. The first step comes from
+    /// the start's tangent (the path moving about a tenth of its size): with a fixed first step of a quarter segment,
+    /// 1.5 of the 4.8 rejected steps a track were first steps; over seeds 1–12 on one thread 668 → 632 ms, the same
+    /// graphs.
     /// </summary>
     private static TrackerOptions EdgeTracker(TrackerOptions solver) => solver with
     {
         InitialStepSize = Math.Max(solver.InitialStepSize, 0.25),
         MaxStepSize = 1.0,
         PredictorTolerance = 10 * solver.PredictorTolerance,
+        InitialStepFromTangent = 0.1,
     };
 
     /// <summary>

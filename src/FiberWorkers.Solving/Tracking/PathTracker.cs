@@ -78,6 +78,11 @@ internal sealed class PathTracker
             return new TrackOutcome(TrackStatus.SingularJacobian, 0, 0, 0, stepSize);
         }
 
+        if (options.InitialStepFromTangent > 0 && MaxNorm(_k1) is var speed and > 0)
+        {
+            stepSize = Math.Clamp(options.InitialStepFromTangent * (1 + MaxNorm(x)) / speed, Math.Min(1e-3, stepSize), stepSize);
+        }
+
         while (tau < 1)
         {
             if (steps + rejections >= budget)

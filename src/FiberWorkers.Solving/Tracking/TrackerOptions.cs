@@ -40,6 +40,12 @@ public sealed record TrackerOptions
     /// <summary>First step, as a fraction of the segment. Default 0.1.</summary>
     public double InitialStepSize { get; init; } = 0.1;
 
+    /// <summary>
+    /// When positive, the first step is θ·(1 + ‖x‖∞)/‖dx/dτ‖∞ for this θ (the path moves by about θ of its size),
+    /// at most <see cref="InitialStepSize"/> and at least 1e-3. Default 0: always <see cref="InitialStepSize"/>.
+    /// </summary>
+    public double InitialStepFromTangent { get; init; }
+
     /// <summary>Largest step, as a fraction of the segment. Default 0.25.</summary>
     public double MaxStepSize { get; init; } = 0.25;
 
