@@ -17,8 +17,10 @@ public sealed class LostWorkerTests
         SweepOutcome outcome;
         using (var coordinator = ServerProcess.Coordinator($"sqlite:{db}", extra: ["--heartbeat", "0.5"]))
         {
-            using var steady1 = ServerProcess.Worker(coordinator.Address, "steady-1");
-            using var steady2 = ServerProcess.Worker(coordinator.Address, "steady-2");
+            // The steady workers wait 250 ms before each tile, so that tiles are still left when the replacement has
+            // started and registered (on a fast host the 36 tiles otherwise finished before it joined).
+            using var steady1 = ServerProcess.Worker(coordinator.Address, "steady-1", fault: "slow:250");
+            using var steady2 = ServerProcess.Worker(coordinator.Address, "steady-2", fault: "slow:250");
             using var victim = ServerProcess.Worker(coordinator.Address, "victim");
             using var client = new ClusterClient(coordinator.Address);
             await ClusterScenario.WaitUntil(async () => (await ClusterScenario.Workers(client)).Count == 3, TimeSpan.FromSeconds(30), "three workers to register");
