@@ -257,14 +257,11 @@ internal static class FiberPlacement
                 }
             }
 
-            var norm = ComplexLu.OneNorm(normal, k);
-            if (!ComplexLu.Factor(normal, k, pivots)
-                || norm * ComplexLu.EstimateInverseOneNorm(normal, k, pivots, new Complex[2 * k]) > 1e12)
+            if (!SolveWellConditioned(normal, k, pivots, values, 1e12))
             {
                 return false;
             }
 
-            ComplexLu.Solve(normal, k, pivots, values);
             for (var j = 0; j < n; j++)
             {
                 var delta = Complex.Zero;
@@ -308,20 +305,33 @@ internal static class FiberPlacement
             }
         }
 
-        var pivots = new int[l];
-        var norm = ComplexLu.OneNorm(matrix, l);
-        if (!ComplexLu.Factor(matrix, l, pivots)
-            || norm * ComplexLu.EstimateInverseOneNorm(matrix, l, pivots, new Complex[2 * l]) > 1e10)
+        if (!SolveWellConditioned(matrix, l, new int[l], values, 1e10))
         {
             return false;
         }
 
-        ComplexLu.Solve(matrix, l, pivots, values);
         for (var k = 0; k < l; k++)
         {
             parameters[k] = values[k];
         }
 
+        return true;
+    }
+
+    /// <summary>
+    /// Solves matrix·y = values in place (the matrix is overwritten by its factors); false when the factorization
+    /// fails or the estimated 1-norm condition number exceeds <paramref name="limit"/>.
+    /// </summary>
+    private static bool SolveWellConditioned(Complex[] matrix, int n, int[] pivots, Complex[] values, double limit)
+    {
+        var norm = ComplexLu.OneNorm(matrix, n);
+        if (!ComplexLu.Factor(matrix, n, pivots)
+            || norm * ComplexLu.EstimateInverseOneNorm(matrix, n, pivots, new Complex[2 * n]) > limit)
+        {
+            return false;
+        }
+
+        ComplexLu.Solve(matrix, n, pivots, values);
         return true;
     }
 }
