@@ -20,10 +20,10 @@ namespace FiberWorkers.Cluster.Workers;
 /// <summary>
 /// What a worker does, behind its gRPC service: computes tiles with the sweep code (setups fetched from the
 /// coordinator and cached) and answers resolves from tile shards (fetched and cached, least recently used dropped).
-/// Stateless apart from caches. Tiles run on dedicated threads, so heartbeats and resolves keep flowing while all
+/// Stateless apart from caches. Tiles run on long-lived tile threads (<see cref="TileThreads"/>), so heartbeats and resolves keep flowing while all
 /// tile threads are busy; up to <see cref="TileLookahead.Depth"/> more tiles are taken and wait for a thread.
 /// </summary>
-public sealed class WorkerRuntime
+public sealed class WorkerRuntime : IDisposable
 {
     private readonly WorkerOptions _options;
     private readonly Coordinator.CoordinatorClient _coordinator;
@@ -37,6 +37,7 @@ public sealed class WorkerRuntime
     private readonly ConcurrentDictionary<string, FamilyDefinition> _families = new(StringComparer.Ordinal);
     private readonly CancellationTokenSource _handBack = new();
     private readonly ClusterMetrics? _metrics;
+    private readonly TileThreads _tileThreads;
     private int _tilesRunning;
     private int _resolvesWaiting;
     private int _stopping;
@@ -55,6 +56,7 @@ public sealed class WorkerRuntime
         _resolveSlots = new SemaphoreSlim(options.Threads, options.Threads);
         _setups = new BoundedCache<string, SweepContext>(options.SetupCache);
         _shards = new BoundedCache<(string, int, string, bool), Resolver>(options.ShardCache);
+        _tileThreads = new TileThreads(options.Threads, "fiber-tile");
     }
 
     public string Id => _options.Id;
@@ -86,6 +88,9 @@ public sealed class WorkerRuntime
             _handBack.CancelAfter(HandBackAfter);
         }
     }
+
+    /// <summary>Ends the tile threads once the tiles given to them are done (after the host stopped).</summary>
+    public void Dispose() => _tileThreads.Dispose();
 
     public async Task<TileOutcome> RunTileAsync(TileTask task, CancellationToken cancellation)
     {
@@ -132,7 +137,7 @@ public sealed class WorkerRuntime
         }
     }
 
-    /// <summary>Computes a tile on a thread of its own, once it holds a tile thread.</summary>
+    /// <summary>Computes a tile on one of the tile threads, once it holds a tile slot.</summary>
     private async Task<TileOutcome> ComputeTileAsync(TileTask task, TileKey key, CancellationToken cancellation)
     {
         Interlocked.Increment(ref _tilesRunning);
@@ -151,8 +156,7 @@ public sealed class WorkerRuntime
 
             await MisbehaveAsync(work.Token).ConfigureAwait(false);
             clock.Restart();
-            var (result, paths) = await Task.Factory.StartNew(
-                () => TileComputer.Compute(context, key, work.Token), work.Token, TaskCreationOptions.LongRunning, TaskScheduler.Default).ConfigureAwait(false);
+            var (result, paths) = await _tileThreads.RunAsync(() => TileComputer.Compute(context, key, work.Token), work.Token).ConfigureAwait(false);
             if (_options.Fault == "garbage")
             {
                 result = result.Clone();

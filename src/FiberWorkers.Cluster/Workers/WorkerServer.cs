@@ -123,6 +123,7 @@ public sealed class WorkerServer : IAsyncDisposable
         // Every call has ended: the coordinator may forget this worker now rather than after its missed heartbeats.
         await Agent.DeregisterAsync(final: true).ConfigureAwait(false);
         _log.Information("worker {WorkerId} stopped", _runtime.Id);
+        _runtime.Dispose();
         _channel.Dispose();
         _metrics.Dispose();
         _stop.Dispose();
