@@ -104,10 +104,11 @@ public sealed class Resolver
     /// Queries track over short distances (the nearest sample is close): a first step over the whole segment and no cap
     /// on the step let most paths finish in one step; the corrector's contraction bound still guards each step. A path
     /// that needs steps below 1e-4 of the segment, or more than 50 of them, is running into a fold and stops early; the
-    /// detour around the fold then decides.
+    /// detour around the fold then decides. Every end is certified, so the ends' condition is judged from the
+    /// certificates (<see cref="FiberSolver.EndConditionLimit"/>) rather than estimated by the track.
     /// </summary>
     private static readonly Solving.Tracking.TrackerOptions ShortSegment =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-4, MaxSteps = 50 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, MinStepSize = 1e-4, MaxSteps = 50, EndNewtonSteps = 1, EstimateEndCondition = false };
 
     /// <summary>
     /// The two legs of a detour around a fold: complex paths, no fold on them, a first step over the whole leg, and a
@@ -116,14 +117,20 @@ public sealed class Resolver
     /// wrong one: whatever set of certified distinct real zeros is accepted holds the count the checks require.
     /// </summary>
     private static readonly Solving.Tracking.TrackerOptions Detour =
-        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, PredictorTolerance = 1e-3 };
+        Solving.Tracking.TrackerOptions.Default with { InitialStepSize = 1.0, MaxStepSize = 1.0, PredictorTolerance = 1e-3, EndNewtonSteps = 1 };
+
+    /// <summary>
+    /// The second leg of a detour: its ends are certified at once, so their condition is judged from the certificates
+    /// (<see cref="FiberSolver.EndConditionLimit"/>) rather than estimated by the track.
+    /// </summary>
+    private static readonly Solving.Tracking.TrackerOptions DetourHome = Detour with { EstimateEndCondition = false };
 
     /// <summary>
     /// The straight segment from a relay fiber to a query in its cell: complex, short, a first step over all of it; a
     /// path that needs more than 200 steps is heading for a singularity or infinity, and the projective solve with its
     /// endgame takes over.
     /// </summary>
-    private static readonly Solving.Tracking.TrackerOptions RelaySegment = Detour with { MaxSteps = 200 };
+    private static readonly Solving.Tracking.TrackerOptions RelaySegment = DetourHome with { MaxSteps = 200 };
 
     /// <summary>The samples queries start from.</summary>
     public SampleSet Samples => _samples;
@@ -343,9 +350,9 @@ public sealed class Resolver
         ends.AddRange(keep.Select(c => (c.PathIndex, c.Values)));
         ends.AddRange(around);
         var certified = _solver.Certify(target, ends);
-        if (!certified.All(c => c.Certified))
+        if (!certified.All(c => c.Certified && c.Condition <= _solver.EndConditionLimit))
         {
-            rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
+            rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified or too ill-conditioned");
             return null;
         }
 
@@ -354,8 +361,8 @@ public sealed class Resolver
 
     /// <summary>
     /// The sample's solutions <paramref name="detoured"/> tracked to the query along two straight segments through the
-    /// segment's midpoint moved off the real plane by half the segment's length (box-normalized): the ends, uncertified,
-    /// by solution index; null (with the reason among the rejections) when a path does not arrive.
+    /// segment's midpoint moved off the real plane by half the segment's length (box-normalized): the ends, uncertified
+    /// and their condition not yet judged (callers certify them and apply the limit), by solution index; null (with the reason among the rejections) when a path does not arrive.
     /// </summary>
     private List<(int PathIndex, Complex[] Values)>? Around(
         int index, List<Complex[]> solutions, List<int> detoured, Complex[] target, List<string> rejections, ref int paths)
@@ -377,7 +384,7 @@ public sealed class Resolver
 
         paths += 2 * detoured.Count;
         var first = _solver.TrackSegment(from, middle, [.. detoured.Select(r => solutions[r])], Detour);
-        var second = first.AllRegular ? _solver.TrackSegment(middle, target, [.. first.Paths.Select(p => p.Endpoint!)], Detour) : null;
+        var second = first.AllRegular ? _solver.TrackSegment(middle, target, [.. first.Paths.Select(p => p.Endpoint!)], DetourHome) : null;
         if (second is null || !second.AllRegular)
         {
             rejections.Add($"{SampleName(index)}: tracking around the fold failed");
@@ -408,11 +415,11 @@ public sealed class Resolver
         var (a, b) = ClosestPair(solutions);
         var ends = Around(index, solutions, [a, b], target, rejections, ref paths);
         var pair = ends is null ? null : _solver.Certify(target, ends);
-        if (pair is null || !pair.All(c => c.Certified))
+        if (pair is null || !pair.All(c => c.Certified && c.Condition <= _solver.EndConditionLimit))
         {
             if (pair is not null)
             {
-                rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified");
+                rejections.Add($"{SampleName(index)}: an endpoint tracked around the fold is not certified or too ill-conditioned");
             }
 
             return (null, null);
@@ -587,8 +594,13 @@ public sealed class Resolver
         var solutions = Solutions(sample);
         paths += solutions.Count;
         var tracked = _solver.TrackSegment(ToComplex([.. sample.Point]), target, solutions, ShortSegment);
-        var arrived = tracked.Paths.Where(p => p.Status == PathStatus.Regular).ToArray();
-        var certified = _solver.Certify(target, [.. arrived.Select(p => (p.Index, p.Endpoint!))]);
+        var ends = tracked.Paths.Where(p => p.Status == PathStatus.Regular).ToArray();
+        var checkedEnds = _solver.Certify(target, [.. ends.Select(p => (p.Index, p.Endpoint!))]);
+
+        // An end too ill-conditioned to tell from one on a fold counts as a failed path (step-size underflow's kin).
+        var limit = _solver.EndConditionLimit;
+        var certified = checkedEnds.Count(c => c.Condition <= limit) == checkedEnds.Count ? checkedEnds : [.. checkedEnds.Where(c => c.Condition <= limit)];
+        var arrived = ends.Where((p, i) => checkedEnds[i].Condition <= limit).ToArray();
         var allCertified = certified.All(c => c.Certified && c.Certificate.Reality == Reality.Real);
         if (arrived.Length == tracked.Paths.Count)
         {
@@ -608,7 +620,7 @@ public sealed class Resolver
         }
 
         var failed = tracked.Paths.Count - arrived.Length;
-        var failure = tracked.Paths.First(p => p.Status != PathStatus.Regular).Failure;
+        var failure = tracked.Paths.FirstOrDefault(p => p.Status != PathStatus.Regular)?.Failure ?? PathFailure.IllConditionedEnd;
         rejections.Add(string.Create(CultureInfo.InvariantCulture, $"{name}: real-only tracking failed on {failed} of {tracked.Paths.Count} paths ({failure.Name()})"));
         return new Attempt(false, certified, new Survivors(index, certified));
     }

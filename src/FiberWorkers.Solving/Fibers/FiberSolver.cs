@@ -27,6 +27,13 @@ public sealed class FiberSolver
     /// </summary>
     private const double SegmentEndConditionLimit = 1e7;
 
+    /// <summary>
+    /// The largest κ₁ at which the end of a segment track counts as regular: the segment limit, or the endgame's
+    /// singular limit when lower. Callers that track with <see cref="TrackerOptions.EstimateEndCondition"/> off apply
+    /// it to the certificates' exact condition.
+    /// </summary>
+    public double EndConditionLimit => Math.Min(Options.Endgame.SingularConditionLimit, SegmentEndConditionLimit);
+
     /// <summary>A segment's start with ‖F‖∞ at most this (relative to 1 + ‖x‖∞) is tracked as given.</summary>
     private const double StartResidual = 1e-13;
 
@@ -171,7 +178,16 @@ public sealed class FiberSolver
         var segment = TrackSegment(start.Parameters, point, start.Solutions, tracker);
         var regular = segment.Paths.Where(p => p.Status == PathStatus.Regular).Select(p => (p.Index, p.Endpoint!)).ToArray();
         var solutions = Certify(point, regular);
-        return new FiberSolution("parameter", point, segment.Paths, solutions, point.All(v => v.Imaginary == 0), start.RootCount);
+        var paths = segment.Paths;
+        if (!(tracker ?? Options.Tracker).EstimateEndCondition && solutions.Any(s => !(s.Condition <= EndConditionLimit)))
+        {
+            // The track left the ends' condition to the certificates: an end above the limit fails as it would have.
+            var failed = solutions.Where(s => !(s.Condition <= EndConditionLimit)).Select(s => s.PathIndex).ToHashSet();
+            paths = [.. paths.Select(p => failed.Contains(p.Index) ? p with { Status = PathStatus.Failed, Failure = PathFailure.IllConditionedEnd } : p)];
+            solutions = Certify(point, [.. regular.Where(r => !failed.Contains(r.Index))]);
+        }
+
+        return new FiberSolution("parameter", point, paths, solutions, point.All(v => v.Imaginary == 0), start.RootCount);
     }
 
     /// <summary>
@@ -220,6 +236,7 @@ public sealed class FiberSolver
 
         return new SegmentResult(to.ToArray(), results);
     }
+
 
     /// <summary>Certifies points as solutions at <paramref name="parameters"/>, distinctness included.</summary>
     public IReadOnlyList<FiberPoint> Certify(ReadOnlySpan<Complex> parameters, IReadOnlyList<(int PathIndex, Complex[] Values)> points)
@@ -287,9 +304,18 @@ public sealed class FiberSolver
             };
         }
 
-        tracker.Refine(x, 1, 3, 1e-15, out var condition);
-        var limit = Math.Min(Options.Endgame.SingularConditionLimit, SegmentEndConditionLimit);
-        var status = condition <= limit ? PathStatus.Regular : PathStatus.Failed;
+        double condition;
+        if (options.EstimateEndCondition)
+        {
+            tracker.Refine(x, 1, Math.Max(1, options.EndNewtonSteps), 1e-15, out condition);
+        }
+        else
+        {
+            // Judged by the caller from the certificate; here only a failed factorization or a non-finite step fails.
+            condition = double.IsFinite(tracker.Refine(x, 1, Math.Max(1, options.EndNewtonSteps), 1e-15)) ? double.NaN : double.PositiveInfinity;
+        }
+
+        var status = double.IsNaN(condition) || condition <= EndConditionLimit ? PathStatus.Regular : PathStatus.Failed;
         return new PathResult
         {
             Index = index,
@@ -299,7 +325,7 @@ public sealed class FiberSolver
             Steps = outcome.Steps,
             Rejections = outcome.Rejections,
             Condition = condition,
-            Residual = tracker.Residual(x, 1),
+            Residual = tracker.ValueNorm(x, 1),
         };
     }
 

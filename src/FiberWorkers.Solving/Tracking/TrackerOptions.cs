@@ -82,4 +82,19 @@ public sealed record TrackerOptions
     /// path. Default 0.25.
     /// </summary>
     public double MaxCorrectionRatio { get; init; } = 0.25;
+
+    /// <summary>
+    /// Newton steps at most that refine the end of a segment track (<c>FiberSolver.TrackSegment</c>), stopping
+    /// early at a rounding-sized step. Default 3. One is enough where every end is certified afterwards: the
+    /// corrector leaves the end within its tolerance of the path, one Newton step from there lands at rounding level
+    /// (quadratic convergence), and the certificate's β measures what is left instead of a second step.
+    /// </summary>
+    public int EndNewtonSteps { get; init; } = 3;
+
+    /// <summary>
+    /// Whether a segment track estimates κ₁ at its end to judge the end regular (default true). False where the
+    /// caller certifies every end at once and applies <c>FiberSolver.EndConditionLimit</c> to the certificate's exact
+    /// condition instead: the estimate would be a second computation of the same figure.
+    /// </summary>
+    public bool EstimateEndCondition { get; init; } = true;
 }

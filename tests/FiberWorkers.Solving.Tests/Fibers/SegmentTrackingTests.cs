@@ -1,6 +1,7 @@
 using System.Globalization;
 using System.Numerics;
 using FiberWorkers.Solving.Fibers;
+using FiberWorkers.Solving.StartFibers;
 using FiberWorkers.Solving.Tests.References;
 using FiberWorkers.Testing;
 
@@ -78,6 +79,38 @@ public sealed class SegmentTrackingTests
         Assert.True(beforeFold.AllRegular);
         SolutionSets.AssertSame([OperatingPoint(B - 1e-7, +1)], [beforeFold.Paths[0].Endpoint!], 1e-9, "upper, P = B − 1e-7");
         SolutionSets.AssertSame([OperatingPoint(B - 1e-7, -1)], [beforeFold.Paths[1].Endpoint!], 1e-9, "lower, P = B − 1e-7");
+    }
+
+    [Theory]
+    [InlineData(B, false)]
+    [InlineData(B - 1e-7, true)]
+    public void Ends_judged_from_their_certificates_fail_and_arrive_as_the_estimated_ones_do(double to, bool regular)
+    {
+        // With one Newton step at the end and no estimate of κ, SolveAlongSegment applies the end-condition limit to
+        // the certificates' exact κ: on the fold both ends still fail as ill-conditioned, just before it both arrive,
+        // certified, at the reference points (as in the estimated case above).
+        var family = TestFamilies.Example("two-bus");
+        var solver = new FiberSolver(family.System);
+        var start = new StartFiber(family.ContentHash, family.Unknowns, [1.2], [OperatingPoint(1.2, +1), OperatingPoint(1.2, -1)],
+            new StartFiberProvenance("test", 0, 2, "segment", string.Empty));
+        var judged = Solving.Tracking.TrackerOptions.Default with { EndNewtonSteps = 1, EstimateEndCondition = false };
+
+        var estimated = solver.SolveAlongSegment(start, [to]);
+        var certified = solver.SolveAlongSegment(start, [to], judged);
+
+        Assert.Equal(estimated.Paths.Select(p => (p.Status, p.Failure)), certified.Paths.Select(p => (p.Status, p.Failure)));
+        Assert.All(certified.Paths, p => Assert.Equal(regular ? PathStatus.Regular : PathStatus.Failed, p.Status));
+        if (regular)
+        {
+            Assert.Equal(2, certified.Solutions.Count);
+            Assert.All(certified.Solutions, s => Assert.True(s.Certified && s.Condition <= solver.EndConditionLimit));
+            SolutionSets.AssertSame([OperatingPoint(to, +1), OperatingPoint(to, -1)], [.. certified.Solutions.Select(s => s.Values)], 1e-9, "one Newton step at the end");
+        }
+        else
+        {
+            Assert.All(certified.Paths, p => Assert.Equal(PathFailure.IllConditionedEnd, p.Failure));
+            Assert.Empty(certified.Solutions);
+        }
     }
 
     [Fact]
