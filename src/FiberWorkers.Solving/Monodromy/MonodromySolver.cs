@@ -733,8 +733,11 @@ internal sealed class MonodromySolver
         }
 
         // Refine in the chart, where solutions with large coordinates stay well scaled, and judge the point with
-        // a chart-independent, row-equilibrated condition number; only then leave the chart.
-        tracker.Refine(x, to, 4, 1e-15);
+        // a chart-independent, row-equilibrated condition number; only then leave the chart. One Newton step: the
+        // corrector left the end within 1e-8 of the path, so one step lands at rounding level (quadratic
+        // convergence); a second only confirmed it (five-bus microgrid, seeds 1–30, one thread: the same graphs,
+        // 1,459–1,468 → 1,413–1,423 ms).
+        tracker.Refine(x, to, 1, 1e-15);
         if (Complex.Abs(x[0]) <= _solve.Endgame.InfinityThreshold * PathTracker.MaxNorm(x)
             || !(tracker.ProjectiveCondition(x, to) <= _solve.Endgame.SingularConditionLimit))
         {
