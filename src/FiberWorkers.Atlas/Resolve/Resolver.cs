@@ -362,7 +362,8 @@ public sealed class Resolver
     /// <summary>
     /// The sample's solutions <paramref name="detoured"/> tracked to the query along two straight segments through the
     /// segment's midpoint moved off the real plane by half the segment's length (box-normalized): the ends, uncertified
-    /// and their condition not yet judged (callers certify them and apply the limit), by solution index; null (with the reason among the rejections) when a path does not arrive.
+    /// and their condition not yet judged (callers certify them and apply the limit), by solution index; null (with
+    /// the reason among the rejections) when a path does not arrive.
     /// </summary>
     private List<(int PathIndex, Complex[] Values)>? Around(
         int index, List<Complex[]> solutions, List<int> detoured, Complex[] target, List<string> rejections, ref int paths)
@@ -599,7 +600,7 @@ public sealed class Resolver
 
         // An end too ill-conditioned to tell from one on a fold counts as a failed path (step-size underflow's kin).
         var limit = _solver.EndConditionLimit;
-        var certified = checkedEnds.Count(c => c.Condition <= limit) == checkedEnds.Count ? checkedEnds : [.. checkedEnds.Where(c => c.Condition <= limit)];
+        var certified = checkedEnds.All(c => c.Condition <= limit) ? checkedEnds : [.. checkedEnds.Where(c => c.Condition <= limit)];
         var arrived = ends.Where((p, i) => checkedEnds[i].Condition <= limit).ToArray();
         var allCertified = certified.All(c => c.Certified && c.Certificate.Reality == Reality.Real);
         if (arrived.Length == tracked.Paths.Count)

@@ -237,7 +237,6 @@ public sealed class FiberSolver
         return new SegmentResult(to.ToArray(), results);
     }
 
-
     /// <summary>Certifies points as solutions at <paramref name="parameters"/>, distinctness included.</summary>
     public IReadOnlyList<FiberPoint> Certify(ReadOnlySpan<Complex> parameters, IReadOnlyList<(int PathIndex, Complex[] Values)> points)
     {

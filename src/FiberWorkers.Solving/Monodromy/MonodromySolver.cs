@@ -754,10 +754,11 @@ internal sealed class MonodromySolver
     }
 
     /// <summary>
-    /// Edges are tracked with longer steps than fibers: up to the whole segment, a looser predictor tolerance. Every endpoint is refined at its node and must be finite and well conditioned there, so a path that
-    /// jumps still ends at a solution of that node's fiber: at worst a known one (a wasted track, or a matching the
-    /// graph holds wrongly, which later loops make up for), never a false one. On the five-bus microgrid (seeds
-    /// 1–6, expected count 70) the graphs came out the same with 6 % fewer factorizations. The first step comes from
+    /// Edges are tracked with longer steps than fibers: up to the whole segment, a looser predictor tolerance. Every
+    /// endpoint is refined at its node and must be finite and well conditioned there, so a path that jumps still ends
+    /// at a solution of that node's fiber: at worst a known one (a wasted track, or a matching the graph holds
+    /// wrongly, which later loops make up for), never a false one. On the five-bus microgrid (seeds 1–6, expected
+    /// count 70) the graphs came out the same with 6 % fewer factorizations. The first step comes from
     /// the start's tangent (the path moving about a tenth of its size): with a fixed first step of a quarter segment,
     /// 1.5 of the 4.8 rejected steps a track were first steps; over seeds 1–12 on one thread 668 → 632 ms, the same
     /// graphs. Steps use the Hermite predictor (two factorizations a step instead of Runge–Kutta's four plus the
