@@ -20,8 +20,9 @@ namespace FiberWorkers.Cluster.Workers;
 /// <summary>
 /// What a worker does, behind its gRPC service: computes tiles with the sweep code (setups fetched from the
 /// coordinator and cached) and answers resolves from tile shards (fetched and cached, least recently used dropped).
-/// Stateless apart from caches. Tiles run on long-lived tile threads (<see cref="TileThreads"/>), so heartbeats and resolves keep flowing while all
-/// tile threads are busy; up to <see cref="TileLookahead.Depth"/> more tiles are taken and wait for a thread.
+/// Stateless apart from caches. Tiles run on long-lived tile threads (<see cref="TileThreads"/>), so heartbeats and
+/// resolves keep flowing while all tile threads are busy; up to <see cref="TileLookahead.Depth"/> more tiles are
+/// taken and wait for a thread.
 /// </summary>
 public sealed class WorkerRuntime : IDisposable
 {
