@@ -61,17 +61,28 @@ public sealed class TileThreads : IDisposable
         return done.Task;
     }
 
-    /// <summary>Lets every thread finish the work queued and end.</summary>
+    /// <summary>
+    /// Lets every thread finish the work queued and end, waiting up to <see cref="JoinTimeout"/> for each (a tile
+    /// stops between lines once its call is cancelled; one still running after that is left to end on its own, in
+    /// the background, and the queue is then not disposed under it).
+    /// </summary>
     public void Dispose()
     {
         _work.CompleteAdding();
+        var ended = true;
         foreach (var thread in _threads)
         {
-            thread.Join();
+            ended &= thread.Join(JoinTimeout);
         }
 
-        _work.Dispose();
+        if (ended)
+        {
+            _work.Dispose();
+        }
     }
+
+    /// <summary>How long <see cref="Dispose"/> waits for each thread.</summary>
+    public static readonly TimeSpan JoinTimeout = TimeSpan.FromSeconds(30);
 
     private void Drain()
     {
