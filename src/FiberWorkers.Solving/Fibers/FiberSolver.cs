@@ -124,10 +124,17 @@ public sealed class FiberSolver
     }
 
     /// <summary>A random generic complex parameter point: box centre + half-width · (complex normal), seeded.</summary>
-    public Complex[] GenericPoint(IReadOnlyList<ParameterBox>? box, string stream)
+    public Complex[] GenericPoint(IReadOnlyList<ParameterBox>? box, string stream) =>
+        GenericPoint(System.ParameterCount, Options.Seed, box, stream);
+
+    /// <summary>
+    /// <see cref="GenericPoint(IReadOnlyList{ParameterBox}?, string)"/> for <paramref name="parameterCount"/>
+    /// parameters and <paramref name="seed"/>, without a solver (and its compiled systems).
+    /// </summary>
+    public static Complex[] GenericPoint(int parameterCount, int seed, IReadOnlyList<ParameterBox>? box, string stream)
     {
-        var random = new SeededRandom(SeededRandom.Derive((ulong)Options.Seed, stream));
-        var point = new Complex[System.ParameterCount];
+        var random = new SeededRandom(SeededRandom.Derive((ulong)seed, stream));
+        var point = new Complex[parameterCount];
         for (var k = 0; k < point.Length; k++)
         {
             var (centre, halfWidth) = box is { Count: > 0 } ? ((box[k].Low + box[k].High) / 2, box[k].Width / 2) : (0.0, 1.0);

@@ -67,7 +67,8 @@ internal sealed class MonodromySolver
         var chart = ProjectiveChart.Random(n + 1, random);
         var solutions = new List<Complex[]> { x0 };
         var expected = _options.ExpectedRootCount;
-        var solver = new FiberSolver(system, _solve);
+        // Compiled only where a homotopy to q = 0 needs it (an augmented base point).
+        var solver = new Lazy<FiberSolver>(() => new FiberSolver(system, _solve));
         // With an expected count, the search ends once the family's own fiber holds that many solutions. At an
         // augmented base point the count is checked on the fiber after the homotopy to q = 0 (the augmented fiber
         // may be larger, and some of its solutions may go to infinity), whenever the augmented fiber has grown
@@ -175,7 +176,7 @@ internal sealed class MonodromySolver
     private const double MergeTolerance = 1e-7;
 
     private (IReadOnlyList<Complex[]> Fiber, int FinalPaths, int Failed) FiberAtBase(
-        FiberSolver solver,
+        Lazy<FiberSolver> solver,
         PolynomialSystem system,
         string familyHash,
         bool augmented,
@@ -194,7 +195,7 @@ internal sealed class MonodromySolver
 
         var target = new Complex[basis.Length];
         parameters.CopyTo(target, 0);
-        var atZero = solver.Solve(Fiber(familyHash, system, basis, solutions, tracks), target);
+        var atZero = solver.Value.Solve(Fiber(familyHash, system, basis, solutions, tracks), target);
         var fiber = atZero.Solutions.Select(s => s.Values).ToList();
         var paths = atZero.PathsTracked;
         var failures = atZero.StatusCounts[PathStatus.Failed];
@@ -207,8 +208,8 @@ internal sealed class MonodromySolver
         for (var attempt = 0; attempt < DetourAttempts && failures > 0; attempt++)
         {
             var detour = NewPoint(basis, random, 1);
-            var there = solver.Solve(Fiber(familyHash, system, basis, solutions, tracks), detour);
-            var back = solver.Solve(Fiber(familyHash, system, detour, [.. there.Solutions.Select(s => s.Values)], tracks), target);
+            var there = solver.Value.Solve(Fiber(familyHash, system, basis, solutions, tracks), detour);
+            var back = solver.Value.Solve(Fiber(familyHash, system, detour, [.. there.Solutions.Select(s => s.Values)], tracks), target);
             paths += there.PathsTracked + back.PathsTracked;
             foreach (var point in back.Solutions)
             {
@@ -266,6 +267,7 @@ internal sealed class MonodromySolver
         private readonly ProjectiveChart _chart;
         private readonly Func<bool> _complete;
         private readonly List<EdgeTask> _created = [];
+
         private readonly List<EdgeTask> _tasks = [];
         private readonly List<Complex[]?> _ends = [];
         private readonly List<TaskState> _states = [];
@@ -738,9 +740,16 @@ internal sealed class MonodromySolver
     }
 
     /// <summary>
-    /// Adds a node joined to <paramref name="others"/>, with tasks for every solution known at them; returns the
-    /// edges added.
+    /// Adds a node joined to <paramref name="others"/>, with tasks for every solution known at them, the largest
+    /// first; returns the edges added.
     /// </summary>
+    /// <remarks>
+    /// The solutions a search finds last are mostly the largest at the base point, and loops exchange them mostly
+    /// with other large ones: carried first around a new loop, these reach a missing solution sooner, and the search
+    /// ends sooner at an expected count (five-bus microgrid, count 70, one thread: seeds 1–60 56,599 → 55,501 segment
+    /// tracks, seeds 61–150 90,615 → 87,712, the tracks of the last loop −11 % and −19 %; the smallest first: +1.4 %).
+    /// The graph at rest does not depend on the order.
+    /// </remarks>
     private static int AddJoinedNode(HomotopyGraph graph, Complex[] point, List<EdgeTask> pending, IEnumerable<int> others)
     {
         var node = graph.AddNode(point, []);
@@ -749,7 +758,9 @@ internal sealed class MonodromySolver
         {
             var edge = graph.AddEdge(other, node);
             joined++;
-            for (var i = 0; i < graph.Solutions[other].Count; i++)
+            var known = graph.Solutions[other];
+            var sizes = known.Select(x => PathTracker.MaxNorm(x)).ToArray();
+            foreach (var i in Enumerable.Range(0, known.Count).OrderByDescending(i => sizes[i]))
             {
                 pending.Add(new EdgeTask(edge, true, i));
             }

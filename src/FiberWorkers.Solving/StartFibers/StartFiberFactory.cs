@@ -55,6 +55,11 @@ public static class StartFiberFactory
         ArgumentNullException.ThrowIfNull(system);
         ArgumentNullException.ThrowIfNull(familyHash);
         ArgumentNullException.ThrowIfNull(options);
+        if (!system.IsSquare)
+        {
+            throw new ArgumentException("the solver needs a square system", nameof(system));
+        }
+
         var reason = method switch
         {
             StartFiberMethod.TotalDegree => "total degree (asked for)",
@@ -67,13 +72,12 @@ public static class StartFiberFactory
             reason = $"auto: {reason}";
         }
 
-        var solver = new FiberSolver(system, options);
         if (method == StartFiberMethod.TotalDegree)
         {
-            return new StartFiberResult(solver.CreateStartFiber(familyHash, box), reason, null);
+            return new StartFiberResult(new FiberSolver(system, options).CreateStartFiber(familyHash, box), reason, null);
         }
 
-        var point = solver.GenericPoint(box, "start-fiber");
+        var point = FiberSolver.GenericPoint(system.ParameterCount, options.Seed, box, "start-fiber");
         var settings = (monodromy ?? MonodromyOptions.Default) with { ExpectedRootCount = rootCountHint ?? monodromy?.ExpectedRootCount };
         var (fiber, report) = new MonodromySolver(system, options, settings).Solve(familyHash, point);
         return new StartFiberResult(fiber, reason, report);
