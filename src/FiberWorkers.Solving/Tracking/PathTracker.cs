@@ -296,11 +296,7 @@ internal sealed class PathTracker
         for (var i = 0; i < _n; i++)
         {
             var row = _jacobian.AsSpan(i * _n, _n);
-            var largest = 0.0;
-            foreach (var entry in row)
-            {
-                largest = Math.Max(largest, entry.Magnitude);
-            }
+            var largest = MaxNorm(row);
 
             if (!(largest > 0) || !double.IsFinite(largest))
             {

@@ -118,6 +118,23 @@ public sealed class ComplexLuTests
         }
     }
 
+    [Theory]
+    [InlineData(3.0, -4.0)]
+    [InlineData(1e-160, 2e-160)]
+    [InlineData(1e-300, -1e-300)]
+    [InlineData(3e160, 4e160)]
+    [InlineData(1e300, 1e300)]
+    [InlineData(0.0, 0.0)]
+    [InlineData(-0.0, 5e-324)]
+    public void Modulus_agrees_with_the_guarded_hypot_over_the_whole_range(double re, double im)
+    {
+        var z = new Complex(re, im);
+        var exact = Complex.Abs(z);
+        Assert.Equal(exact, ComplexLu.Modulus(z), exact * 1e-15);
+        Assert.True(double.IsNaN(ComplexLu.Modulus(new Complex(double.NaN, 1))));
+        Assert.Equal(double.PositiveInfinity, ComplexLu.Modulus(new Complex(double.PositiveInfinity, 1)));
+    }
+
     [Fact]
     public void Exactly_singular_matrices_are_reported()
     {
