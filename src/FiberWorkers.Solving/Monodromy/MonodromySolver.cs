@@ -545,7 +545,15 @@ internal sealed class MonodromySolver
         /// </summary>
         private void Append()
         {
-            var at = Math.Max(0, _order.Count - Lead);
+            Enqueue(Math.Max(0, _order.Count - Lead));
+        }
+
+        /// <summary>
+        /// Moves the tasks just created into the merge order with <paramref name="at"/> unmerged tasks behind them
+        /// (0: behind every unmerged task), keeping their creation order among themselves.
+        /// </summary>
+        private void Enqueue(int at)
+        {
             foreach (var task in _created)
             {
                 _order.Insert(at, _tasks.Count);
@@ -581,13 +589,7 @@ internal sealed class MonodromySolver
 
             if (Extend(_created))
             {
-                foreach (var task in _created)
-                {
-                    _order.Insert(0, _tasks.Count);
-                    _tasks.Add(task);
-                    _ends.Add(null);
-                    _states.Add(TaskState.Queued);
-                }
+                Enqueue(0);
             }
 
             _created.Clear();
@@ -849,11 +851,6 @@ internal sealed class MonodromySolver
     }
 
     /// <summary>
-    /// Carries <paramref name="start"/> along the edge whose homotopy <paramref name="tracker"/> tracks (from its
-    /// first node at t = 0 to its second at t = 1), forward or back; null when the track fails or ends at a point
-    /// the graph cannot use.
-    /// </summary>
-    /// <summary>
     /// An end whose condition number in the edge's chart (estimated from the refining Newton step's factors, no
     /// further factorization) is below this fraction of the singular limit is well conditioned without the
     /// chart-independent estimate. That estimate is there for the opposite case: regular solutions with large
@@ -865,6 +862,11 @@ internal sealed class MonodromySolver
     /// </summary>
     private const double ChartConditionShortcut = 1e-3;
 
+    /// <summary>
+    /// Carries <paramref name="start"/> along the edge whose homotopy <paramref name="tracker"/> tracks (from its
+    /// first node at t = 0 to its second at t = 1), forward or back; null when the track fails or ends at a point
+    /// the graph cannot use.
+    /// </summary>
     private Complex[]? AlongEdge(PathTracker tracker, Complex[] start, bool forward, ProjectiveChart chart)
     {
         var x = new Complex[start.Length + 1];
